@@ -1,0 +1,250 @@
+"""Optical materials: dispersion models and the named materials lenses are made of.
+
+Every model maps wavelength in nanometres (scalar or array) to refractive
+index. The published formulas take wavelength in micrometres; the
+conversion happens inside each model.
+
+References
+----------
+.. [1] I. H. Malitson, "Interspecimen comparison of the refractive index of
+   fused silica", J. Opt. Soc. Am. 55, 1205-1208 (1965).
+.. [2] S. N. Kasarova, N. G. Sultanova, C. D. Ivanov, I. D. Nikolov,
+   "Analysis of the dispersion of optical plastic materials", Optical
+   Materials 29, 1481-1490 (2007).
+.. [3] N. Sultanova, S. Kasarova, I. Nikolov, "Dispersion properties of
+   optical polymers", Acta Physica Polonica A 116, 585-587 (2009).
+.. [4] M. Rubin, "Optical properties of soda lime silica glasses", Solar
+   Energy Materials 12, 275-288 (1985).
+.. [5] W. J. Smith, Modern Optical Engineering, 4th ed. (2008), ch. 7
+   (Abbe number V_d = (n_d - 1) / (n_F - n_C), Fraunhofer lines).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from optics.errors import InputError
+
+#: Fraunhofer F, d and C lines [nm] (Smith [5]).
+F_LINE_NM = 486.13
+D_LINE_NM = 587.56
+C_LINE_NM = 656.27
+
+
+def _micrometres(wavelength_nm):
+    return np.asarray(wavelength_nm, dtype=np.float64) * 1e-3
+
+
+@dataclass(frozen=True)
+class Sellmeier:
+    """Sellmeier model n^2 - 1 = sum B_i L^2 / (L^2 - C_i^2), L in micrometres.
+
+    Parameters
+    ----------
+    b : tuple of float
+        Oscillator strengths [dimensionless].
+    c : tuple of float
+        Resonance wavelengths [micrometres] (squared in the formula).
+
+    References
+    ----------
+    .. [1] Malitson (1965), the form used for fused silica.
+    """
+
+    b: tuple[float, ...]
+    c: tuple[float, ...]
+
+    def index(self, wavelength_nm):
+        """Refractive index at ``wavelength_nm`` [nm]."""
+        lam2 = _micrometres(wavelength_nm) ** 2
+        n2 = 1.0 + sum(bi * lam2 / (lam2 - ci * ci) for bi, ci in zip(self.b, self.c, strict=True))
+        return np.sqrt(n2)
+
+
+@dataclass(frozen=True)
+class QuadraticInverseQuadratic:
+    """Model n = a + b L^2 + c / L^2, L in micrometres (Rubin's soda-lime form).
+
+    References
+    ----------
+    .. [1] Rubin (1985), soda-lime silica glass, visible range.
+    """
+
+    a: float
+    b: float
+    c: float
+
+    def index(self, wavelength_nm):
+        """Refractive index at ``wavelength_nm`` [nm]."""
+        lam2 = _micrometres(wavelength_nm) ** 2
+        return self.a + self.b * lam2 + self.c / lam2
+
+
+@dataclass(frozen=True)
+class IndexSquaredSeries:
+    """Model n^2 = A0 + A1 L^2 + A2 L^-2 + A3 L^-4 + ..., L in micrometres.
+
+    References
+    ----------
+    .. [1] Kasarova et al. (2007), the form fitted to optical plastics.
+    """
+
+    coefficients: tuple[float, ...]
+
+    def index(self, wavelength_nm):
+        """Refractive index at ``wavelength_nm`` [nm]."""
+        lam2 = _micrometres(wavelength_nm) ** 2
+        a = self.coefficients
+        n2 = a[0] + a[1] * lam2
+        for k, ak in enumerate(a[2:], start=1):
+            n2 = n2 + ak * lam2 ** (-k)
+        return np.sqrt(n2)
+
+
+@dataclass(frozen=True)
+class Cauchy:
+    """Model n = A + B / L^2 + C / L^4, L in micrometres.
+
+    Use :meth:`through_points` to build one from measured indices and
+    :meth:`from_abbe` to build one from a catalogue-style (n_d, V_d) pair.
+
+    References
+    ----------
+    .. [1] E. Hecht, Optics, 5th ed. (2017), sec. 3.5 (Cauchy's formula).
+    .. [2] Smith (2008), ch. 7: V_d = (n_d - 1) / (n_F - n_C).
+    """
+
+    a: float
+    b: float
+    c: float = 0.0
+
+    def index(self, wavelength_nm):
+        """Refractive index at ``wavelength_nm`` [nm]."""
+        inv2 = 1.0 / _micrometres(wavelength_nm) ** 2
+        return self.a + self.b * inv2 + self.c * inv2 * inv2
+
+    @classmethod
+    def through_points(cls, wavelengths_nm, indices) -> Cauchy:
+        """Return the Cauchy model through two or three measured (wavelength, index) points."""
+        inv2 = 1.0 / _micrometres(wavelengths_nm) ** 2
+        columns = [np.ones_like(inv2), inv2, inv2 * inv2][: len(inv2)]
+        coeffs = np.linalg.solve(np.stack(columns, axis=1), np.asarray(indices, float))
+        return cls(*map(float, coeffs))
+
+    @classmethod
+    def from_abbe(cls, nd: float, vd: float) -> Cauchy:
+        """Return the two-term Cauchy model with d-line index ``nd`` and Abbe number ``vd``."""
+        if not (np.isfinite(nd) and 1.0 < nd < 3.0):
+            raise InputError("nd", nd, "index at 587.6 nm must lie between 1 and 3")
+        if not (np.isfinite(vd) and 10.0 <= vd <= 120.0):
+            raise InputError("Vd", vd, "Abbe number must lie between 10 and 120")
+        spread = (nd - 1.0) / vd  # n_F - n_C
+        b = spread / (_micrometres(F_LINE_NM) ** -2 - _micrometres(C_LINE_NM) ** -2)
+        return cls(nd - b * _micrometres(D_LINE_NM) ** -2, float(b))
+
+
+@dataclass(frozen=True)
+class ConstantIndex:
+    """Non-dispersive medium of index ``n`` (air is taken as 1.0)."""
+
+    n: float
+
+    def index(self, wavelength_nm):
+        """Refractive index at ``wavelength_nm`` [nm] (the same at every wavelength)."""
+        return np.full(np.shape(wavelength_nm), self.n, dtype=np.float64)
+
+
+@dataclass(frozen=True)
+class Material:
+    """A named optical material.
+
+    Parameters
+    ----------
+    name : str
+        Short name used in scene files and on the command line.
+    dispersion : object
+        Any model above: ``dispersion.index(wavelength_nm)`` gives the index.
+    density_g_cm3 : float
+        Density [g/cm^3], for lens mass.
+    source : str
+        Where the dispersion data come from.
+    """
+
+    name: str
+    dispersion: object
+    density_g_cm3: float
+    source: str
+
+    def index(self, wavelength_nm):
+        """Refractive index at ``wavelength_nm`` [nm]."""
+        return self.dispersion.index(wavelength_nm)
+
+    def abbe_number(self) -> float:
+        """Abbe number V_d = (n_d - 1) / (n_F - n_C) (Smith [5])."""
+        nf, nd, nc = (float(self.index(w)) for w in (F_LINE_NM, D_LINE_NM, C_LINE_NM))
+        return (nd - 1.0) / (nf - nc)
+
+
+AIR = Material("air", ConstantIndex(1.0), 0.0012, "taken as 1.0 (common practice)")
+
+#: Named materials. Densities are handbook values quoted from memory.
+MATERIALS: dict[str, Material] = {
+    m.name: m
+    for m in (
+        Material(
+            "fused-silica",
+            Sellmeier((0.6961663, 0.4079426, 0.8974794), (0.0684043, 0.1162414, 9.896161)),
+            2.20,
+            "Malitson 1965 Sellmeier, 20 C",
+        ),
+        Material(
+            "soda-lime",
+            QuadraticInverseQuadratic(1.5130, -0.003169, 0.003962),
+            2.5,
+            "Rubin 1985",
+        ),
+        Material(
+            "acrylic",
+            IndexSquaredSeries(
+                (2.399964, -8.308636e-2, -1.919569e-1, 8.720608e-2, -1.666411e-2, 1.169519e-3)
+            ),
+            1.18,
+            "Kasarova et al. 2007 (PMMA)",
+        ),
+        Material(
+            "polycarbonate",
+            Cauchy.through_points((486.1, 587.6, 632.8), (1.599, 1.585, 1.580)),
+            1.20,
+            "Cauchy fit through Sultanova et al. 2009 measured indices",
+        ),
+    )
+}
+
+
+def material_by_name(name: str, key: str = "material") -> Material:
+    """Return a named material, or one built from ``"ND/VD"`` (e.g. ``"1.5168/64.2"``).
+
+    A material given as ``ND/VD`` uses :meth:`Cauchy.from_abbe` and a density of
+    2.5 g/cm^3 (crown-glass class, common practice).
+
+    Raises
+    ------
+    InputError
+        If the name is unknown and is not an ``ND/VD`` pair.
+    """
+    if isinstance(name, Material):
+        return name
+    text = str(name).strip().lower()
+    if text in MATERIALS:
+        return MATERIALS[text]
+    if text.count("/") == 1:
+        try:
+            nd, vd = (float(part) for part in text.split("/"))
+        except ValueError:
+            nd = vd = None
+        if nd is not None:
+            return Material(text, Cauchy.from_abbe(nd, vd), 2.5, "user n_d and V_d")
+    known = ", ".join(sorted(MATERIALS))
+    raise InputError(key, name, f"unknown material; use one of {known}, or ND/VD like 1.5168/64.2")

@@ -1,0 +1,1 @@
+"""Rendering, measuring and reporting what a visitor sees through a cloak exhibit."""
