@@ -7,15 +7,24 @@ value and the rule, with exit code 2 and no traceback (``--debug`` shows it).
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import sys
+import time
+from importlib import resources
+from pathlib import Path
 
 from optics.cloak import LensChoice, design_cloak
 from optics.errors import InputError, require_finite_positive
 from optics.lenses import SHAPES
 from optics.materials import MATERIALS, material_by_name
 from render.cautions import cautions_text
+from render.composite import TexturePyramids
 from render.design_summary import summarise, table
+from render.outputs import write_summary, write_viewer
+from render.progress import Progress
+from render.scene import Viewer, load_scene
+from render.views import VIEW_NAMES, render_viewer
 
 
 class _UsageError(Exception):
@@ -58,6 +67,122 @@ def _design(args) -> int:
     return 0
 
 
+def _triple(text: str, option: str) -> tuple[float, float, float]:
+    try:
+        values = tuple(float(v) for v in text.split(","))
+    except ValueError:
+        values = ()
+    if len(values) != 3 or not all(v == v and abs(v) != float("inf") for v in values):
+        raise InputError(option, text, "must be three finite numbers in mm, like 0,1250,-1500")
+    return values
+
+
+def _size(text: str) -> tuple[int, int]:
+    try:
+        width, height = (int(v) for v in text.lower().split("x"))
+    except ValueError:
+        raise InputError("--size", text, "must be WIDTHxHEIGHT in pixels, like 640x360") from None
+    if not (16 <= width <= 8192 and 16 <= height <= 8192):
+        raise InputError("--size", text, "each side must be 16 to 8192 pixels")
+    return width, height
+
+
+def _viewers(scene, args) -> list[Viewer]:
+    if args.eye:
+        base = scene.viewers[0]
+        eye = _triple(args.eye, "--eye")
+        look = _triple(args.look_at, "--look-at") if args.look_at else base.look_at_mm
+        chosen = [dataclasses.replace(base, name="custom", eye_mm=eye, look_at_mm=look)]
+        device_eye = scene.placement.to_device(eye)
+        if device_eye[2] >= scene.housing.panel_z_mm:
+            raise InputError("--eye", args.eye, "the eye must be in front of the device's "
+                             "front panel", str(scene.path))
+    elif args.viewer:
+        chosen = [scene.viewer(args.viewer)]
+    else:
+        chosen = list(scene.viewers)
+    if args.size:
+        width, height = _size(args.size)
+        chosen = [dataclasses.replace(v, width_px=width, height_px=height) for v in chosen]
+    return chosen
+
+
+def _views(text: str | None) -> tuple[str, ...]:
+    if not text:
+        return VIEW_NAMES
+    views = tuple(v.strip() for v in text.split(",") if v.strip())
+    for view in views:
+        if view not in VIEW_NAMES:
+            raise InputError("--views", view, f"unknown view; choose from {', '.join(VIEW_NAMES)}")
+    return views
+
+
+def _render_scene(scene_path, args, views, out: Path, quiet: bool) -> list:
+    started = time.perf_counter()
+    scene = load_scene(scene_path, allow_outside_paths=getattr(args, "allow_outside_paths",
+                                                                False),
+                       ideal=True if getattr(args, "ideal", False) else None)
+    viewers = _viewers(scene, args)
+    supersample = getattr(args, "supersample", None)
+    pyramids = TexturePyramids(scene)
+    progress = Progress(3 * len(viewers), "rendering", enabled=not quiet)
+    renders = []
+    for viewer in viewers:
+        render = render_viewer(scene, viewer, pyramids, views, supersample, progress)
+        write_viewer(out, render)
+        renders.append(render)
+    options = {"views": list(views), "viewers": [v.name for v in viewers],
+               "ideal": scene.settings.ideal, "supersample": supersample or
+               scene.settings.supersample, "wavelengths_nm": list(scene.settings.wavelengths_nm)}
+    write_summary(out, renders, scene.path, options, started)
+    return renders
+
+
+def _render(args) -> int:
+    out = Path(args.out)
+    renders = _render_scene(Path(args.scene), args, _views(args.views), out, args.json)
+    if args.json:
+        print(json.dumps([r.metrics for r in renders], indent=2))
+    else:
+        _print_table(renders, out)
+    return 0
+
+
+def _fmt(value, pattern="{:.3f}"):
+    return "-" if value is None else pattern.format(value)
+
+
+def _print_table(renders, out: Path) -> None:
+    print(f"{'viewer':<16}{'hidden':>8}{'SSIM':>7}{'shift':>8}{'trans':>7}{'fringe':>8}"
+          f"{'s':>6}  verdict")
+    for r in renders:
+        mt = r.metrics
+        shift = mt["background_shift_arcmin"]
+        print(f"{r.viewer.name:<16}{_fmt(mt['hidden_fraction'], '{:.1%}'):>8}"
+              f"{_fmt(mt['background_ssim']):>7}"
+              f"{_fmt(shift and shift['median'], '{:.2f}'):>8}"
+              f"{_fmt(mt['transmittance']):>7}{_fmt(mt['color_fringe_arcmin'], '{:.2f}'):>8}"
+              f"{r.seconds:>6.1f}  {mt['verdict']}")
+    print("hidden = share of the object that vanishes; SSIM = background likeness through "
+          "the lenses;\nshift, fringe = median background displacement and colour spread "
+          "[arcmin at the eye]; trans = light through the lenses")
+    print(f"Images and metrics written to {out.resolve()}")
+    print()
+    print(cautions_text())
+
+
+def _demo(args) -> int:
+    started = time.perf_counter()
+    scene_path = resources.files("sample_scenes") / args.scene / "scene.toml"
+    out = Path(args.out)
+    print(f"cloakview demo: rendering the bundled '{args.scene}' exhibit for each of its "
+          "visitors...")
+    renders = _render_scene(Path(str(scene_path)), args, VIEW_NAMES, out, False)
+    _print_table(renders, out)
+    print(f"\nDemo finished in {time.perf_counter() - started:.1f} s.")
+    return 0
+
+
 _OPTION_NAMES = {"f_outer": "--f-outer", "f_inner": "--f-inner", "outer_diameter":
                  "--outer-diameter", "inner_diameter": "--inner-diameter", "min_edge_mm":
                  "--min-edge", "shape": "--shape"}
@@ -97,6 +222,36 @@ def build_parser() -> argparse.ArgumentParser:
                         help="anti-reflection coating on every surface")
     design.add_argument("--json", action="store_true", help="print JSON instead of a table")
     design.set_defaults(run=_design)
+
+    render = commands.add_parser("render", help="render what visitors see through the exhibit "
+                                 "described in a scene file, with metrics")
+    render.add_argument("scene", help="scene file (TOML)")
+    who = render.add_mutually_exclusive_group()
+    who.add_argument("--viewer", metavar="NAME", help="render only this viewer of the scene")
+    who.add_argument("--eye", metavar="X,Y,Z", help="render from this eye point [mm, room "
+                     "frame: right, height above floor, along the axis]")
+    render.add_argument("--look-at", metavar="X,Y,Z", help="point the eye looks at [mm] "
+                        "(with --eye)")
+    render.add_argument("--views", metavar="LIST", help=f"comma-separated views from "
+                        f"{', '.join(VIEW_NAMES)} (default all)")
+    render.add_argument("--size", metavar="WxH", help="image size in pixels, like 1280x720")
+    render.add_argument("--supersample", type=int, choices=range(1, 9), metavar="N",
+                        help="samples per pixel along each axis (1-8)")
+    render.add_argument("--ideal", action="store_true", help="ideal thin lenses")
+    render.add_argument("--allow-outside-paths", action="store_true",
+                        help="allow image paths outside the scene folder")
+    render.add_argument("--out", default="cloakview-out", metavar="DIR",
+                        help="output folder (default cloakview-out)")
+    render.add_argument("--json", action="store_true", help="print metrics as JSON")
+    render.set_defaults(run=_render)
+
+    demo = commands.add_parser("demo", help="render the bundled gallery exhibit for all its "
+                               "visitors and print how well the effect works for each")
+    demo.add_argument("--scene", default="gallery", choices=("gallery", "tabletop"),
+                      help="which bundled exhibit (default gallery)")
+    demo.add_argument("--out", default="cloakview-demo", metavar="DIR",
+                      help="output folder (default cloakview-demo)")
+    demo.set_defaults(run=_demo, ideal=False, viewer=None, eye=None, size=None)
     return parser
 
 
@@ -117,6 +272,8 @@ def main(argv=None) -> int:
     except _UsageError as error:
         print(f"cloakview: error: command line: {error}", file=sys.stderr)
         return 2
+    except BrokenPipeError:  # output piped into a pager or head that closed early
+        return 0
     except KeyboardInterrupt:
         print("cloakview: interrupted", file=sys.stderr)
         return 130

@@ -1,0 +1,109 @@
+"""The visitor's eye as a camera: one ray per sample (pixel x supersample x pupil point).
+
+The eye is a pinhole, or a round pupil sampled on a Vogel spiral with every sample
+ray aimed through the same point on the plane of focus (the look-at distance), so
+that things nearer or farther than that blur as they do for an eye.
+
+References
+----------
+.. [1] H. Vogel, "A better way to construct the sunflower head", Mathematical
+   Biosciences 44, 179-189 (1979): evenly spread points on a disc.
+.. [2] M. Pharr, W. Jakob, G. Humphreys, Physically Based Rendering, 3rd ed.
+   (2016), sec. 6.2.3: thin-lens camera model (focus plane, lens samples).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from optics.trace import Rays
+from render.scene import Placement, Viewer
+
+
+@dataclass(frozen=True)
+class SampleGrid:
+    """Shape of the sample array: pupil points x rows x columns (rows = height x s)."""
+
+    pupil: int
+    rows: int
+    columns: int
+    supersample: int
+
+    @property
+    def count(self) -> int:
+        """Number of rays."""
+        return self.pupil * self.rows * self.columns
+
+
+def _basis(viewer: Viewer) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Forward, right and up unit vectors of the eye in the room frame."""
+    eye = np.asarray(viewer.eye_mm, float)
+    forward = np.asarray(viewer.look_at_mm, float) - eye
+    forward /= np.linalg.norm(forward)
+    world_up = np.array([0.0, 1.0, 0.0])
+    right = np.cross(world_up, forward)
+    if np.linalg.norm(right) < 1e-9:  # looking straight up or down
+        right = np.array([1.0, 0.0, 0.0])
+    right /= np.linalg.norm(right)
+    return forward, right, np.cross(forward, right)
+
+
+def pixel_directions(viewer: Viewer, supersample: int) -> np.ndarray:
+    """Pinhole directions (rows, columns, 3) in the room frame, row 0 at the top."""
+    forward, right, up = _basis(viewer)
+    cols, rows = viewer.width_px * supersample, viewer.height_px * supersample
+    half = math.tan(math.radians(viewer.fov_deg) / 2.0)
+    px = ((np.arange(cols) + 0.5) / cols * 2.0 - 1.0) * half
+    py = (1.0 - (np.arange(rows) + 0.5) / rows * 2.0) * half * rows / cols
+    d = forward + px[None, :, None] * right + py[:, None, None] * up
+    return d / np.linalg.norm(d, axis=-1, keepdims=True)
+
+
+def _pupil_offsets(viewer: Viewer) -> np.ndarray:
+    """Pupil sample points (P, 2) in mm, Vogel spiral [1]."""
+    count = viewer.pupil_samples if viewer.pupil_mm > 0 else 1
+    if count == 1:
+        return np.zeros((1, 2))
+    k = np.arange(count)
+    radius = viewer.pupil_mm / 2.0 * np.sqrt((k + 0.5) / count)
+    angle = k * math.pi * (3.0 - math.sqrt(5.0))
+    return np.stack([radius * np.cos(angle), radius * np.sin(angle)], axis=1)
+
+
+def camera_rays(viewer: Viewer, placement: Placement, supersample: int,
+                wavelength_nm: float) -> tuple[Rays, SampleGrid]:
+    """Rays for every sample of ``viewer``, in the device frame.
+
+    Parameters
+    ----------
+    viewer : Viewer
+        Eye point, gaze, field of view [deg], image size, pupil [mm].
+    placement : Placement
+        Where the device stands in the room.
+    supersample : int
+        Samples per pixel along each axis.
+    wavelength_nm : float
+        Wavelength given to every ray [nm].
+    """
+    directions = pixel_directions(viewer, supersample)
+    rows, cols = directions.shape[:2]
+    offsets = _pupil_offsets(viewer)
+    eye = np.asarray(viewer.eye_mm, float)
+    if len(offsets) == 1:
+        origins = np.broadcast_to(eye, (rows * cols, 3))
+        dirs = directions.reshape(-1, 3)
+    else:
+        forward, right, up = _basis(viewer)
+        focus = np.linalg.norm(np.asarray(viewer.look_at_mm, float) - eye)
+        # Every pupil sample aims at the pinhole ray's point on the plane of focus [2].
+        targets = eye + directions * (focus / (directions @ forward))[..., None]
+        starts = eye + offsets[:, 0, None] * right + offsets[:, 1, None] * up
+        origins = np.broadcast_to(starts[:, None, None, :], (len(offsets), rows, cols, 3))
+        dirs = targets[None] - origins
+        origins, dirs = origins.reshape(-1, 3), dirs.reshape(-1, 3)
+    rays = Rays.from_vectors(placement.to_device(origins),
+                             placement.directions_to_device(dirs), wavelength_nm)
+    return rays, SampleGrid(len(offsets), rows, cols, supersample)

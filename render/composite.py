@@ -1,0 +1,187 @@
+"""Compositing: sample each layer's picture, blend front to back in linear light, add colour.
+
+Textures are premultiplied linear RGBA. Each ray takes the colour of the layers it
+crossed, nearest first, each weighted by the light that gets through the layers in
+front of it ("over" operator), times the Fresnel throughput the ray carried to that
+layer; what stays uncovered takes the colour of what the ray finally struck
+(panel, tube or lens mount, shaded) or of the room beyond.
+
+Pictures seen smaller than their pixels are sampled from a mip pyramid at the
+level matching each ray's footprint, blended between the two nearest levels.
+
+References
+----------
+.. [1] T. Porter and T. Duff, "Compositing digital images", SIGGRAPH 1984,
+   Computer Graphics 18(3), 253-259 (the "over" operator, premultiplied alpha).
+.. [2] L. Williams, "Pyramidal parametrics", SIGGRAPH 1983, Computer Graphics
+   17(3), 1-11 (mip-mapping).
+.. [3] IEC 61966-2-1 (sRGB): compositing in linear light, encoding at the end.
+"""
+
+from __future__ import annotations
+
+import math
+
+import cv2
+import numpy as np
+
+from optics.trace import MOUNT, PANEL, PASSED, WALL
+from render.mapper import RayMap
+from render.scene import Scene
+
+_REMAP_COLUMNS = 4096
+#: Shading of the housing: lit from above and in front, ambient floor (our own choice).
+_LIGHT = np.array([0.3, 1.0, -0.6]) / np.linalg.norm([0.3, 1.0, -0.6])
+_AMBIENT = 0.35
+#: Light falls off inside the tube with depth over about this length [mm] (our own choice).
+_TUBE_DEPTH_MM = 600.0
+
+
+class TexturePyramids:
+    """Mip pyramids of the scene's layer pictures, built once per scene [2]."""
+
+    def __init__(self, scene: Scene):
+        self.levels = {}
+        for layer in scene.layers:
+            level = [layer.texture]
+            while min(level[-1].shape[:2]) >= 16 and len(level) < 12:
+                level.append(cv2.pyrDown(level[-1]))
+            self.levels[layer.name] = level
+
+
+def _remap(texture: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """Bilinear samples (N, 4) of ``texture`` at pixel coordinates; 0 outside."""
+    n = len(u)
+    if n == 0:
+        return np.zeros((0, 4), np.float32)
+    rows = -(-n // _REMAP_COLUMNS)
+    pad = rows * _REMAP_COLUMNS - n
+    mu = np.pad(np.nan_to_num(u, nan=-10.0), (0, pad), constant_values=-10.0)
+    mv = np.pad(np.nan_to_num(v, nan=-10.0), (0, pad), constant_values=-10.0)
+    sampled = cv2.remap(texture, mu.reshape(rows, -1), mv.reshape(rows, -1),
+                        interpolation=cv2.INTER_LINEAR, borderMode=cv2.BORDER_CONSTANT,
+                        borderValue=(0, 0, 0, 0))
+    return sampled.reshape(-1, 4)[:n]
+
+
+def _footprint_levels(u: np.ndarray, v: np.ndarray, grid_shape) -> np.ndarray:
+    """Mip level per ray from how far apart neighbouring samples land [texels]."""
+    uu, vv = u.reshape(grid_shape), v.reshape(grid_shape)
+    spans = []
+    for axis in (-1, -2):
+        for arr in (uu, vv):
+            d = np.abs(np.diff(arr, axis=axis))
+            pad = [(0, 0)] * arr.ndim
+            pad[axis] = (0, 1)
+            forward = np.pad(d, pad, constant_values=np.nan)
+            pad[axis] = (1, 0)
+            backward = np.pad(d, pad, constant_values=np.nan)
+            spans.append(np.where(np.isnan(forward), backward, forward))
+    footprint = np.nan_to_num(np.stack(spans), nan=-1.0).max(axis=0).reshape(-1)
+    footprint[footprint < 0.0] = 1.0  # no neighbour on this layer: take the finest level
+    with np.errstate(divide="ignore"):
+        return np.log2(np.maximum(footprint, 1.0))
+
+
+def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
+                 grid_shape) -> np.ndarray:
+    """Premultiplied RGBA (N, 4) of the rays at texture coordinates ``u``, ``v``."""
+    out = np.zeros((len(u), 4), np.float32)
+    rows = np.flatnonzero(~np.isnan(u))
+    if not len(rows):
+        return out
+    level = np.full(len(u), 0.0)
+    level[rows] = np.minimum(_footprint_levels(u, v, grid_shape)[rows], len(pyramid) - 1)
+    top = int(math.ceil(level[rows].max()))
+    for k in range(top + 1):
+        weight = 1.0 - np.abs(level[rows] - k)
+        use = weight > 0.0
+        if not use.any():
+            continue
+        pick = rows[use]
+        scale = 2.0**-k
+        samples = _remap(pyramid[k], (u[pick] + 0.5) * scale - 0.5,
+                         (v[pick] + 0.5) * scale - 0.5)
+        out[pick] += samples * weight[use, None].astype(np.float32)
+    return out
+
+
+def _housing_colour(scene: Scene, ray_map: RayMap) -> np.ndarray:
+    """Linear RGB (N, 3) of what each ray finally struck (room colour if nothing)."""
+    r = ray_map.result
+    n = len(r.fate)
+    colour = np.broadcast_to(scene.settings.backdrop_rgb, (n, 3)).astype(np.float32).copy()
+    struck = r.fate != PASSED
+    if not struck.any():
+        return colour
+    panel = r.fate == PANEL
+    colour[panel] = scene.panel_rgb * (_AMBIENT + (1 - _AMBIENT) * max(0.0, -_LIGHT[2]))
+    outside_wall = (r.fate == WALL) & ~r.entered
+    if outside_wall.any():
+        radius = np.hypot(r.x[outside_wall], r.y[outside_wall])
+        lambert = np.clip((r.x[outside_wall] * _LIGHT[0] + r.y[outside_wall] * _LIGHT[1])
+                          / radius, 0.0, 1.0)
+        colour[outside_wall] = scene.tube_rgb * (_AMBIENT + (1 - _AMBIENT) * lambert)[:, None]
+    inside = struck & r.entered
+    if inside.any():
+        depth = np.maximum(r.z[inside] - scene.housing.panel_z_mm, 0.0)
+        fade = _AMBIENT * 0.6 + (1 - _AMBIENT * 0.6) * np.exp(-depth / _TUBE_DEPTH_MM)
+        base = np.where((r.fate[inside] == MOUNT)[:, None], scene.tube_rgb * 1.25,
+                        scene.tube_rgb)
+        colour[inside] = base * fade[:, None]
+    colour[struck] *= np.nan_to_num(r.throughput[struck], nan=1.0)[:, None].astype(np.float32)
+    return colour
+
+
+def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
+                   grid_shape) -> tuple[np.ndarray, np.ndarray]:
+    """Linear RGB (N, 3) of every ray, and the weight (N,) of hidden objects in it [1].
+
+    Parameters
+    ----------
+    grid_shape : tuple
+        (pupil, rows, columns) of the sample grid, for texture footprints.
+    """
+    n = len(ray_map.result.fate)
+    rgb = np.zeros((n, 3), np.float32)
+    clear = np.ones(n, np.float32)
+    hidden = np.zeros(n, np.float32)
+    for hit in ray_map.hits:  # z order: nearest first
+        rgba = sample_layer(pyramids.levels[hit.layer.name], hit.u, hit.v, grid_shape)
+        rgba *= np.float32(hit.layer.opacity)
+        alpha = rgba[:, 3]
+        tp = np.nan_to_num(hit.throughput, nan=0.0).astype(np.float32)
+        rgb += (clear * tp)[:, None] * rgba[:, :3]
+        if hit.layer.role == "hidden":
+            hidden += clear * alpha
+        clear *= 1.0 - alpha
+    rgb += clear[:, None] * _housing_colour(scene, ray_map)
+    return rgb, hidden
+
+
+def channel_weights(wavelengths_nm) -> np.ndarray:
+    """Weights (K, 3) that turn K single-wavelength images into R, G, B.
+
+    Each wavelength feeds the channel whose band holds it (blue below 490 nm, green to
+    590 nm, red above: our own split, close to where the sRGB primaries' colour-matching
+    lobes cross, common practice); a channel whose band holds no wavelength takes the
+    nearest one. Each channel's weights sum to 1, so a grey picture stays grey.
+    """
+    w = np.asarray(wavelengths_nm, float)
+    bands = [(0.0, 490.0, 455.0), (490.0, 590.0, 545.0), (590.0, 1e9, 620.0)]
+    weights = np.zeros((len(w), 3))
+    for c, (lo, hi, centre) in enumerate(reversed(bands)):  # columns R, G, B
+        inside = (w >= lo) & (w < hi)
+        if inside.any():
+            weights[inside, c] = 1.0 / inside.sum()
+        else:
+            weights[np.argmin(np.abs(w - centre)), c] = 1.0
+    return weights
+
+
+def resolve_samples(samples: np.ndarray, grid_shape, supersample: int) -> np.ndarray:
+    """Average per-ray values (N,) or (N, C) over pupil points and supersamples: (H, W, C)."""
+    pupil, rows, cols = grid_shape
+    s = supersample
+    blocks = samples.reshape(pupil, rows // s, s, cols // s, s, -1)
+    return blocks.mean(axis=(0, 2, 4), dtype=np.float64).astype(np.float32)

@@ -1,0 +1,539 @@
+"""Scene files: load a TOML exhibit description, check every key, build the device.
+
+A scene describes one exhibit: the lens device and where it stands, its housing, the
+picture layers (background wall, objects to hide, foreground signs) and the visitors'
+eye points. Room frame: x to the visitor's right, y up from the floor, z along the
+device axis toward the background, millimetres. The device frame has its origin on the
+axis at the viewer-side vertex of the first lens.
+
+Layers are placed in the device frame: ``center_mm = [right, height]`` gives the
+sideways offset from the axis and the height above the floor; ``z_mm`` the distance
+along the axis from the first lens.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import tomllib
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+import numpy as np
+
+from optics.cloak import CloakDesign, LensChoice, design_cloak
+from optics.errors import InputError
+from optics.lenses import ThickLens, ThinLens, sag
+from optics.materials import C_LINE_NM, D_LINE_NM, F_LINE_NM, material_by_name
+from optics.surfaces import Housing
+from optics.system import LensSystem, PlacedLens
+from render.images import hex_colour_linear, read_texture
+
+ROLES = ("background", "hidden", "foreground")
+MAX_IMAGE_SIDE_PX = 8192
+DEFAULT_WAVELENGTHS_NM = (F_LINE_NM, D_LINE_NM, C_LINE_NM)
+
+
+@dataclass(frozen=True)
+class Layer:
+    """A flat picture perpendicular to the axis (device frame, mm).
+
+    Attributes
+    ----------
+    texture : ndarray
+        Premultiplied linear RGBA, (H, W, 4) float32.
+    center_x_mm, center_y_mm : float
+        Centre offset from the axis [mm] (y up).
+    z_mm : float
+        Axial position [mm].
+    width_mm, height_mm : float
+        Physical size [mm].
+    """
+
+    name: str
+    role: str
+    texture: np.ndarray = field(repr=False)
+    center_x_mm: float
+    center_y_mm: float
+    z_mm: float
+    width_mm: float
+    height_mm: float
+    opacity: float = 1.0
+
+
+@dataclass(frozen=True)
+class Viewer:
+    """A visitor's eye (room frame, mm) and the picture it makes."""
+
+    name: str
+    eye_mm: tuple[float, float, float]
+    look_at_mm: tuple[float, float, float]
+    fov_deg: float
+    width_px: int
+    height_px: int
+    pupil_mm: float = 0.0
+    pupil_samples: int = 1
+
+
+@dataclass(frozen=True)
+class Placement:
+    """Where the device stands: axis height, vertex position [x, z] and heading [deg]."""
+
+    axis_height_mm: float
+    x_mm: float
+    z_mm: float
+    heading_deg: float
+
+    def axes(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """Device origin and unit axes (x, y, z) in room coordinates."""
+        h = math.radians(self.heading_deg)
+        origin = np.array([self.x_mm, self.axis_height_mm, self.z_mm])
+        ez = np.array([math.sin(h), 0.0, math.cos(h)])
+        ex = np.array([math.cos(h), 0.0, -math.sin(h)])
+        return origin, ex, np.array([0.0, 1.0, 0.0]), ez
+
+    def to_device(self, points_room: np.ndarray) -> np.ndarray:
+        """Room points (..., 3) to device-frame points [mm]."""
+        origin, ex, ey, ez = self.axes()
+        d = np.asarray(points_room, float) - origin
+        return np.stack([d @ ex, d @ ey, d @ ez], axis=-1)
+
+    def directions_to_device(self, directions_room: np.ndarray) -> np.ndarray:
+        """Room directions (..., 3) to device-frame directions."""
+        _, ex, ey, ez = self.axes()
+        d = np.asarray(directions_room, float)
+        return np.stack([d @ ex, d @ ey, d @ ez], axis=-1)
+
+
+@dataclass(frozen=True)
+class Settings:
+    """How to render: wavelengths [nm], supersampling, ideal lenses, room colour (linear RGB)."""
+
+    wavelengths_nm: tuple[float, ...]
+    supersample: int
+    ideal: bool
+    backdrop_rgb: np.ndarray = field(repr=False)
+
+
+@dataclass(frozen=True)
+class Scene:
+    """A loaded, checked exhibit."""
+
+    path: Path
+    title: str
+    system: LensSystem
+    design: CloakDesign | None
+    housing: Housing
+    placement: Placement
+    layers: tuple[Layer, ...]
+    viewers: tuple[Viewer, ...]
+    settings: Settings
+    tube_rgb: np.ndarray = field(repr=False)
+    panel_rgb: np.ndarray = field(repr=False)
+
+    def viewer(self, name: str) -> Viewer:
+        """The viewer called ``name``."""
+        for v in self.viewers:
+            if v.name == name:
+                return v
+        names = ", ".join(v.name for v in self.viewers)
+        raise InputError("--viewer", name, f"no such viewer in the scene; choose one of {names}",
+                         str(self.path))
+
+
+class _Table:
+    """One TOML table being read: tracks its path for messages and rejects unknown keys."""
+
+    def __init__(self, data, path: str, source: str):
+        if not isinstance(data, dict):
+            raise InputError(path, data, "must be a table", source)
+        self.data, self.path, self.source = data, path, source
+        self.used: set[str] = set()
+
+    def key(self, name: str) -> str:
+        return f"{self.path}.{name}" if self.path else name
+
+    def error(self, name: str, value, rule: str) -> InputError:
+        return InputError(self.key(name), value, rule, self.source)
+
+    def has(self, name: str) -> bool:
+        return name in self.data
+
+    def get(self, name: str, default=None):
+        self.used.add(name)
+        return self.data.get(name, default)
+
+    def number(self, name: str, default=None, *, positive=False, low=None, high=None,
+               required=False) -> float:
+        value = self.get(name, default)
+        if value is None:
+            if required:
+                raise self.error(name, None, "is required")
+            return None
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise self.error(name, value, "must be a number")
+        value = float(value)
+        if not math.isfinite(value):
+            raise self.error(name, value, "must be a finite number")
+        if positive and value <= 0:
+            raise self.error(name, value, "must be greater than 0")
+        if (low is not None and value < low) or (high is not None and value > high):
+            rule = (f"must lie between {low:g} and {high:g}" if low is not None and high is not
+                    None else f"must be at least {low:g}" if low is not None
+                    else f"must be at most {high:g}")
+            raise self.error(name, value, rule)
+        return value
+
+    def integer(self, name: str, default, low: int, high: int) -> int:
+        value = self.get(name, default)
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise self.error(name, value, "must be a whole number")
+        if not low <= value <= high:
+            raise self.error(name, value, f"must lie between {low} and {high}")
+        return value
+
+    def boolean(self, name: str, default: bool) -> bool:
+        value = self.get(name, default)
+        if not isinstance(value, bool):
+            raise self.error(name, value, "must be true or false")
+        return value
+
+    def string(self, name: str, default=None, required=False) -> str:
+        value = self.get(name, default)
+        if value is None and required:
+            raise self.error(name, None, "is required")
+        if value is not None and not isinstance(value, str):
+            raise self.error(name, value, "must be a string")
+        return value
+
+    def vector(self, name: str, length: int, default=None, required=False):
+        value = self.get(name, default)
+        if value is None:
+            if required:
+                raise self.error(name, None, f"is required: a list of {length} numbers in mm")
+            return None
+        if (not isinstance(value, (list, tuple)) or len(value) != length
+                or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                           and math.isfinite(v) for v in value)):
+            raise self.error(name, value, f"must be a list of {length} finite numbers in mm")
+        return tuple(float(v) for v in value)
+
+    def finish(self) -> None:
+        unknown = sorted(set(self.data) - self.used)
+        if unknown:
+            name = unknown[0]
+            close = difflib.get_close_matches(name, sorted(self.used), n=1)
+            hint = f"; did you mean '{close[0]}'?" if close else ""
+            raise self.error(name, self.data[name], f"unknown key{hint}")
+
+
+def _radius(table: _Table, name: str) -> float:
+    value = table.get(name)
+    if isinstance(value, str) and value.strip().lower() in ("flat", "plane", "inf"):
+        return math.inf
+    table.used.discard(name)
+    number = table.number(name, required=True)
+    if number == 0:
+        raise table.error(name, value, "radius must be non-zero; write \"flat\" for a plane face")
+    return number
+
+
+def _explicit_lenses(items, source: str) -> LensSystem:
+    if not isinstance(items, list) or not items:
+        raise InputError("device.lens", items, "must be a non-empty list of lens tables", source)
+    placed = []
+    for i, item in enumerate(items):
+        t = _Table(item, f"device.lens[{i}]", source)
+        z = t.number("z_mm", required=True)
+        diameter = t.number("diameter_mm", required=True, positive=True)
+        try:
+            if t.has("focal_length_mm"):
+                lens = ThinLens(t.number("focal_length_mm", required=True, positive=True),
+                                diameter)
+            else:
+                material = material_by_name(t.string("material", "soda-lime"),
+                                            t.key("material"))
+                lens = ThickLens(_radius(t, "r1_mm"), _radius(t, "r2_mm"),
+                                 t.number("center_thickness_mm", required=True, positive=True),
+                                 diameter, material)
+        except InputError as error:
+            raise InputError(t.key(error.key) if "." not in error.key else error.key,
+                             error.value, error.rule, source) from None
+        t.finish()
+        placed.append(PlacedLens(lens, z, f"L{i + 1}"))
+    for a, b in zip(placed, placed[1:], strict=False):
+        if b.z_mm < a.back_z_mm:
+            raise InputError(f"device.lens[{placed.index(b)}].z_mm", b.z_mm,
+                             f"overlaps the lens before it (which ends at {a.back_z_mm:g} mm); "
+                             "lenses must be listed viewer side first without overlapping",
+                             source)
+    return tuple(placed)
+
+
+def _device(t: _Table, ideal: bool, source: str):
+    coated = t.boolean("coated", False)
+    if t.has("lens"):
+        for name in ("f_outer_mm", "f_inner_mm"):
+            if t.has(name):
+                raise t.error(name, t.get(name), "give either f_outer_mm/f_inner_mm or a "
+                              "[[device.lens]] list, not both")
+        if ideal:
+            raise InputError("render.ideal", True, "ideal lenses need a device given by "
+                             "f_outer_mm and f_inner_mm, not an explicit lens list", source)
+        return LensSystem(_explicit_lenses(t.get("lens"), source), coated=coated), None
+    diameter = t.number("diameter_mm", 50.8, positive=True)
+    choice = LensChoice(
+        ideal=ideal,
+        material=_wrap(lambda: material_by_name(t.string("material", "soda-lime"),
+                                                t.key("material")), source),
+        shape=t.get("shape", "biconvex"),
+        outer_diameter_mm=t.number("outer_diameter_mm", diameter, positive=True),
+        inner_diameter_mm=t.number("inner_diameter_mm", diameter, positive=True),
+        min_edge_mm=t.number("min_edge_mm", 2.0, low=0.0, high=1000.0),
+    )
+    f_outer = t.number("f_outer_mm", required=True)
+    f_inner = t.number("f_inner_mm", required=True)
+
+    def build():
+        try:
+            return design_cloak(f_outer, f_inner, choice, coated=coated)
+        except InputError as error:
+            key = {"f_outer": "f_outer_mm", "f_inner": "f_inner_mm", "shape": "shape",
+                   "outer_diameter": "outer_diameter_mm",
+                   "inner_diameter": "inner_diameter_mm"}.get(error.key, error.key)
+            raise InputError(t.key(key), error.value, error.rule, source) from None
+
+    design = build()
+    return design.system, design
+
+
+def _wrap(fn, source):
+    try:
+        return fn()
+    except InputError as error:
+        raise error.with_source(source) from None
+
+
+def _lens_glass_extent(placed: PlacedLens) -> tuple[float, float]:
+    """Axial extent of a lens's glass including the rim [mm] (meniscus rims stick out)."""
+    lens = placed.lens
+    if isinstance(lens, ThinLens):
+        return placed.z_mm, placed.z_mm
+    h = lens.diameter_mm / 2
+    front = placed.z_mm + float(sag(h, lens.c1))
+    back = placed.back_z_mm + float(sag(h, lens.c2))
+    return min(placed.z_mm, front), max(placed.back_z_mm, back)
+
+
+def _housing(t: _Table, system: LensSystem) -> tuple[Housing, np.ndarray, np.ndarray]:
+    largest = max(p.lens.diameter_mm for p in system.lenses)
+    tube_d = t.number("tube_diameter_mm", largest + 20.0, positive=True)
+    if tube_d < largest:
+        raise t.error("tube_diameter_mm", tube_d, f"must be at least the largest lens "
+                      f"diameter, {largest:g} mm")
+    hole_d = t.number("hole_diameter_mm", system.lenses[0].lens.diameter_mm, positive=True)
+    if hole_d > tube_d:
+        raise t.error("hole_diameter_mm", hole_d, f"must not exceed the tube diameter "
+                      f"{tube_d:g} mm")
+    width = t.number("panel_width_mm", 2.5 * tube_d, positive=True)
+    height = t.number("panel_height_mm", 2.5 * tube_d, positive=True)
+    if min(width, height) < tube_d:
+        raise t.error("panel_width_mm" if width < tube_d else "panel_height_mm",
+                      min(width, height), f"the panel must cover the tube ({tube_d:g} mm)")
+    gap = t.number("panel_gap_mm", 10.0, low=0.0, high=10000.0)
+    extension = t.number("tube_extension_mm", 10.0, low=0.0, high=10000.0)
+    first = _lens_glass_extent(system.lenses[0])[0]
+    last = _lens_glass_extent(system.lenses[-1])[1]
+    housing = Housing(panel_z_mm=first - gap, hole_radius_mm=hole_d / 2,
+                      panel_half_width_mm=width / 2, panel_half_height_mm=height / 2,
+                      tube_radius_mm=tube_d / 2, tube_end_mm=last + extension)
+    tube = hex_colour_linear(t.string("tube_color", "#2f2c2a"), t.key("tube_color"), t.source)
+    panel = hex_colour_linear(t.string("panel_color", "#4a4f57"), t.key("panel_color"),
+                              t.source)
+    return housing, tube, panel
+
+
+def _resolve_image(text: str, key: str, folder: Path, source: str, allow_outside: bool) -> Path:
+    path = Path(text)
+    candidate = (path if path.is_absolute() else folder / path).resolve()
+    if not allow_outside:
+        if path.is_absolute():
+            raise InputError(key, text, "image paths must be relative to the scene folder "
+                             "(pass --allow-outside-paths to permit absolute paths)", source)
+        if not candidate.is_relative_to(folder.resolve()):
+            raise InputError(key, text, "image path climbs out of the scene folder "
+                             "(pass --allow-outside-paths to permit this)", source)
+    return candidate
+
+
+def _layer(t: _Table, folder: Path, source: str, allow_outside: bool, axis_height: float,
+           system: LensSystem, housing: Housing) -> Layer:
+    name = t.string("name", required=True)
+    role = t.string("role", required=True)
+    if role not in ROLES:
+        raise t.error("role", role, f"must be one of {', '.join(ROLES)}")
+    image_text = t.string("image", required=True)
+    texture = read_texture(_resolve_image(image_text, t.key("image"), folder, source,
+                                          allow_outside), t.key("image"), source)
+    aspect = texture.shape[1] / texture.shape[0]
+    width = t.number("width_mm", positive=True)
+    height = t.number("height_mm", positive=True)
+    if width is None and height is None:
+        raise t.error("width_mm", None, "give width_mm or height_mm (or both)")
+    width = width if width is not None else height * aspect
+    height = height if height is not None else width / aspect
+    cx, cy_floor = t.vector("center_mm", 2, required=True)
+    z = t.number("z_mm", required=True)
+    opacity = t.number("opacity", 1.0, low=0.0, high=1.0)
+    t.finish()
+    layer = Layer(name, role, texture, cx, cy_floor - axis_height, z, width, height, opacity)
+    _check_layer_place(layer, t, system, housing)
+    return layer
+
+
+def _check_layer_place(layer: Layer, t: _Table, system: LensSystem, housing: Housing):
+    for placed in system.lenses:
+        lo, hi = _lens_glass_extent(placed)
+        if lo - 1e-9 <= layer.z_mm <= hi + 1e-9:
+            raise t.error("z_mm", layer.z_mm, f"lies inside lens {placed.label} "
+                          f"({lo:.1f} to {hi:.1f} mm); move the layer into an air gap")
+    if layer.role == "hidden":
+        if not housing.panel_z_mm < layer.z_mm < housing.tube_end_mm:
+            raise t.error("z_mm", layer.z_mm, f"a hidden object must be inside the device "
+                          f"({housing.panel_z_mm:.0f} to {housing.tube_end_mm:.0f} mm)")
+        corners = [(layer.center_x_mm + sx * layer.width_mm / 2,
+                    layer.center_y_mm + sy * layer.height_mm / 2)
+                   for sx in (-1, 1) for sy in (-1, 1)]
+        reach = max(math.hypot(x, y) for x, y in corners)
+        if reach > housing.tube_radius_mm:
+            raise t.error("width_mm", layer.width_mm, f"the hidden object reaches "
+                          f"{reach:.1f} mm from the axis, beyond the tube radius "
+                          f"{housing.tube_radius_mm:.1f} mm; make it smaller or move it")
+    elif layer.role == "background" and layer.z_mm <= housing.tube_end_mm:
+        raise t.error("z_mm", layer.z_mm, f"a background must stand beyond the device's far "
+                      f"end at {housing.tube_end_mm:.0f} mm")
+    elif layer.role == "foreground" and layer.z_mm >= housing.panel_z_mm:
+        raise t.error("z_mm", layer.z_mm, f"a foreground layer must stand in front of the "
+                      f"panel at {housing.panel_z_mm:.0f} mm")
+
+
+def _viewer(t: _Table, placement: Placement, housing: Housing, layers) -> Viewer:
+    name = t.string("name", required=True)
+    eye = t.vector("eye_mm", 3, required=True)
+    origin = placement.axes()[0]
+    look = t.vector("look_at_mm", 3, tuple(origin))
+    fov = t.number("fov_deg", 12.0, low=0.1, high=120.0)
+    size = t.get("size", [640, 360])
+    if (not isinstance(size, list) or len(size) != 2
+            or not all(isinstance(s, int) and not isinstance(s, bool) for s in size)
+            or not all(16 <= s <= MAX_IMAGE_SIDE_PX for s in size)):
+        raise t.error("size", size, f"must be [width, height] in whole pixels, each 16 to "
+                      f"{MAX_IMAGE_SIDE_PX}")
+    pupil = t.number("pupil_mm", 0.0, low=0.0, high=10.0)
+    samples = t.integer("pupil_samples", 8 if pupil > 0 else 1, 1, 64)
+    t.finish()
+    device_eye = placement.to_device(np.array(eye))
+    if device_eye[2] >= housing.panel_z_mm:
+        raise t.error("eye_mm", list(eye), "the eye must be in front of the device's front "
+                      f"panel (device z {device_eye[2]:.0f} mm is not before "
+                      f"{housing.panel_z_mm:.0f} mm)")
+    for layer in layers:
+        if layer.role == "foreground" and layer.z_mm <= device_eye[2]:
+            raise t.error("eye_mm", list(eye), f"the eye is beyond foreground layer "
+                          f"'{layer.name}'")
+    if np.allclose(eye, look):
+        raise t.error("look_at_mm", list(look), "must differ from eye_mm")
+    return Viewer(name, eye, look, fov, size[0], size[1], pupil, samples)
+
+
+def _settings(t: _Table) -> Settings:
+    wavelengths = t.get("wavelengths_nm", list(DEFAULT_WAVELENGTHS_NM))
+    if (not isinstance(wavelengths, list) or not 1 <= len(wavelengths) <= 16
+            or not all(isinstance(w, (int, float)) and not isinstance(w, bool)
+                       and 380.0 <= w <= 780.0 for w in wavelengths)):
+        raise t.error("wavelengths_nm", wavelengths, "must be a list of 1 to 16 visible "
+                      "wavelengths, 380 to 780 nm")
+    return Settings(
+        wavelengths_nm=tuple(sorted(float(w) for w in wavelengths)),
+        supersample=t.integer("supersample", 2, 1, 8),
+        ideal=t.boolean("ideal", False),
+        backdrop_rgb=hex_colour_linear(t.string("backdrop_color", "#d9d4ca"),
+                                       t.key("backdrop_color"), t.source),
+    )
+
+
+def load_scene(path, allow_outside_paths: bool = False, ideal: bool | None = None) -> Scene:
+    """Load and check a scene file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file.
+    allow_outside_paths : bool
+        Allow image paths that are absolute or leave the scene folder.
+    ideal : bool, optional
+        Override ``render.ideal``.
+
+    Raises
+    ------
+    InputError
+        For every malformed or impossible value, naming the file and the key.
+    """
+    path = Path(path)
+    source = str(path)
+    if not path.is_file():
+        raise InputError("scene", source, "scene file not found")
+    try:
+        data = tomllib.loads(path.read_text(encoding="utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as error:
+        raise InputError("scene", source, f"not valid TOML ({error})") from None
+    root = _Table(data, "", source)
+    render = _Table(root.get("render", {}), "render", source)
+    settings = _settings(render)
+    if ideal is not None:
+        settings = replace(settings, ideal=ideal)
+    render.finish()
+    device = _Table(root.get("device"), "device", source) if root.has("device") else None
+    if device is None:
+        raise InputError("device", None, "the scene needs a [device] table", source)
+    system, design = _device(device, settings.ideal, source)
+    placement = Placement(
+        axis_height_mm=device.number("axis_height_mm", 1250.0, low=0.0, high=5000.0),
+        x_mm=device.vector("position_mm", 2, (0.0, 0.0))[0],
+        z_mm=device.vector("position_mm", 2, (0.0, 0.0))[1],
+        heading_deg=device.number("heading_deg", 0.0, low=-180.0, high=180.0),
+    )
+    device.finish()
+    housing_table = _Table(root.get("housing", {}), "housing", source)
+    housing, tube_rgb, panel_rgb = _housing(housing_table, system)
+    housing_table.finish()
+    layer_items = root.get("layer", [])
+    if not isinstance(layer_items, list):
+        raise InputError("layer", layer_items, "write layers as [[layer]] tables", source)
+    layers = []
+    for i, item in enumerate(layer_items):
+        layer = _layer(_Table(item, f"layer[{i}]", source), path.parent, source,
+                       allow_outside_paths, placement.axis_height_mm, system, housing)
+        if any(other.name == layer.name for other in layers):
+            raise InputError(f"layer[{i}].name", layer.name, "layer names must be unique",
+                             source)
+        layers.append(layer)
+    if not any(layer.role == "background" for layer in layers):
+        raise InputError("layer", None, "the scene needs at least one background layer",
+                         source)
+    viewer_items = root.get("viewer", [])
+    if not isinstance(viewer_items, list) or not viewer_items:
+        raise InputError("viewer", viewer_items, "the scene needs at least one [[viewer]]",
+                         source)
+    viewers = []
+    for i, item in enumerate(viewer_items):
+        viewer = _viewer(_Table(item, f"viewer[{i}]", source), placement, housing, layers)
+        if any(other.name == viewer.name for other in viewers):
+            raise InputError(f"viewer[{i}].name", viewer.name, "viewer names must be unique",
+                             source)
+        viewers.append(viewer)
+    title = root.string("title", path.stem)
+    root.finish()
+    layers.sort(key=lambda layer: layer.z_mm)
+    return Scene(path, title, system, design, housing, placement, tuple(layers),
+                 tuple(viewers), settings, tube_rgb, panel_rgb)

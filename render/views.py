@@ -1,0 +1,194 @@
+"""Render one viewer's views and measure them.
+
+Views: ``cloaked`` (the exhibit as built), ``naked`` (the same housing and objects
+with the lenses taken out), ``reference`` (the room with no device and no hidden
+objects: what a perfect cloak would show), ``difference`` (a heat map of cloaked
+against reference) and ``vanish`` (the cloaked view with the object's outline as it
+would be seen without lenses, and which parts of it vanish or still show).
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass
+
+import cv2
+import numpy as np
+
+from optics.materials import D_LINE_NM
+from optics.surfaces import Refracting
+from render import metrics as m
+from render.camera import camera_rays
+from render.composite import (
+    TexturePyramids,
+    channel_weights,
+    composite_rays,
+    resolve_samples,
+)
+from render.images import linear_to_srgb, to_uint8
+from render.mapper import SETUPS, map_rays
+from render.scene import Scene, Viewer
+
+VIEW_NAMES = ("cloaked", "reference", "naked", "difference", "vanish")
+#: Overlay colours of the vanish view (sRGB, our own palette).
+VANISHED_RGB = (0.12, 0.71, 0.66)
+SHOWING_RGB = (0.91, 0.33, 0.23)
+OUTLINE_RGB = (1.0, 0.86, 0.25)
+
+
+@dataclass
+class ViewerRender:
+    """Images (8-bit sRGB) and metrics of one viewer."""
+
+    viewer: Viewer
+    images: dict[str, np.ndarray]
+    metrics: dict
+    seconds: float
+
+
+def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample):
+    """Linear image, hidden coverage and per-wavelength ray maps for one traced view."""
+    weights = channel_weights(wavelengths)
+    dispersive = setup.lenses and any(isinstance(s, Refracting) for s in scene.system.surfaces)
+    trace_wavelengths = wavelengths if dispersive else (_design_wavelength(wavelengths),)
+    image = None
+    maps = {}
+    coverage = None
+    for k, wl in enumerate(trace_wavelengths):
+        rays, grid = camera_rays(viewer, scene.placement, supersample, wl)
+        shape = (grid.pupil, grid.rows, grid.columns)
+        ray_map = map_rays(scene, rays, setup)
+        rgb, hidden = composite_rays(scene, ray_map, pyramids, shape)
+        rgb = resolve_samples(rgb, shape, supersample)
+        part = rgb * weights[k][None, None, :] if dispersive else rgb
+        image = part if image is None else image + part
+        maps[wl] = (ray_map, shape)
+        if coverage is None or wl == _design_wavelength(trace_wavelengths):
+            coverage = resolve_samples(hidden, shape, supersample)[..., 0]
+    return image, coverage, maps
+
+
+def _design_wavelength(wavelengths) -> float:
+    return min(wavelengths, key=lambda w: abs(w - D_LINE_NM))
+
+
+def _front_background(scene: Scene):
+    return min((layer for layer in scene.layers if layer.role == "background"),
+               key=lambda layer: layer.z_mm)
+
+
+def _difference_image(cloaked_srgb, reference_srgb) -> np.ndarray:
+    diff = np.abs(cloaked_srgb - reference_srgb).max(axis=-1)
+    heat = cv2.applyColorMap(np.round(np.clip(diff, 0, 1) * 255).astype(np.uint8),
+                             cv2.COLORMAP_INFERNO)[..., ::-1]
+    return _with_legend(heat, "difference from a perfect cloak: black = none, yellow = "
+                        "full scale (sRGB)")
+
+
+def _with_legend(image: np.ndarray, text: str) -> np.ndarray:
+    h, w = image.shape[:2]
+    strip = max(14, h // 18)
+    out = np.concatenate([image, np.full((strip, w, 3), 24, np.uint8)], axis=0)
+    scale = strip / 30.0
+    cv2.putText(out, text, (4, h + int(strip * 0.72)), cv2.FONT_HERSHEY_SIMPLEX, scale,
+                (235, 235, 235), 1, cv2.LINE_AA)
+    return out
+
+
+def _vanish_image(cloaked_srgb, cloaked_cov, naked_cov) -> np.ndarray:
+    base = 0.2 + 0.6 * cloaked_srgb  # the view itself, softened so the overlay reads
+    outline_mask = (naked_cov >= 0.5).astype(np.uint8)
+    vanished = (naked_cov >= 0.5) & (cloaked_cov < 0.5)
+    showing = cloaked_cov >= 0.5
+    out = base.copy()
+    out[vanished] = 0.45 * out[vanished] + 0.55 * np.array(VANISHED_RGB)
+    out[showing] = 0.3 * out[showing] + 0.7 * np.array(SHOWING_RGB)
+    image = np.round(np.clip(out, 0, 1) * 255).astype(np.uint8)
+    contours, _ = cv2.findContours(outline_mask, cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE)
+    colour = tuple(int(c * 255) for c in OUTLINE_RGB)
+    cv2.drawContours(image, contours, -1, colour, max(1, image.shape[0] // 240), cv2.LINE_AA)
+    return _with_legend(image, "outline: object without lenses   teal: vanished   "
+                        "red: still seen")
+
+
+def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None = None,
+                  views=VIEW_NAMES, supersample: int | None = None,
+                  progress=None) -> ViewerRender:
+    """Render and measure ``viewer``'s views of ``scene``.
+
+    Parameters
+    ----------
+    views : sequence of str
+        Which images to return (all three traces run regardless: the metrics need them).
+    supersample : int, optional
+        Override the scene's supersampling.
+    progress : callable, optional
+        Called with a short label after each traced view.
+    """
+    start = time.perf_counter()
+    pyramids = pyramids or TexturePyramids(scene)
+    ss = supersample or scene.settings.supersample
+    wavelengths = scene.settings.wavelengths_nm
+    traced = {}
+    for name, setup in SETUPS.items():
+        traced[name] = _trace_view(scene, viewer, setup, wavelengths, pyramids, ss)
+        if progress:
+            progress(f"{viewer.name}: {name}")
+    srgb = {name: linear_to_srgb(t[0]) for name, t in traced.items()}
+    cloaked_cov, naked_cov = traced["cloaked"][1], traced["naked"][1]
+    metrics = _measure(scene, viewer, traced, srgb, ss)
+    images = {}
+    for name in views:
+        if name in traced:
+            images[name] = to_uint8(traced[name][0])
+        elif name == "difference":
+            images[name] = _difference_image(srgb["cloaked"], srgb["reference"])
+        elif name == "vanish":
+            images[name] = _vanish_image(srgb["cloaked"], cloaked_cov, naked_cov)
+    return ViewerRender(viewer, images, metrics, time.perf_counter() - start)
+
+
+def _measure(scene, viewer, traced, srgb, ss) -> dict:
+    cloaked_maps = traced["cloaked"][2]
+    design_wl = _design_wavelength(list(cloaked_maps))
+    ray_map, shape = cloaked_maps[design_wl]
+    reference_map, _ = next(iter(traced["reference"][2].values()))
+    through = ray_map.through_device
+    through_px = resolve_samples(through.astype(np.float32), shape, ss)[..., 0] >= 0.999
+    hidden, ratio = m.hidden_fraction(traced["cloaked"][1], traced["naked"][1])
+    wall = _front_background(scene)
+    eye = scene.placement.to_device(np.asarray(viewer.eye_mm, float))
+    seen = ray_map.result.crossings[wall.name]
+    ref = reference_map.result.crossings[wall.name]
+    both = through & seen.reached & ref.reached
+    shift = m.angular_shift_arcmin(eye, seen.x[both], seen.y[both], ref.x[both], ref.y[both],
+                                   wall.z_mm)
+    shift_mm = np.hypot(seen.x[both] - ref.x[both], seen.y[both] - ref.y[both])
+    fringe = None
+    if len(cloaked_maps) > 1:
+        short = cloaked_maps[min(cloaked_maps)][0]
+        long = cloaked_maps[max(cloaked_maps)][0]
+        a, b = short.result.crossings[wall.name], long.result.crossings[wall.name]
+        ok = short.through_device & long.through_device & a.reached & b.reached
+        spread = m.angular_shift_arcmin(eye, a.x[ok], a.y[ok], b.x[ok], b.y[ok], wall.z_mm)
+        fringe = float(np.percentile(spread, 95)) if spread.size else None
+    else:
+        fringe = 0.0
+    transmittance = (float(np.mean(ray_map.result.throughput[through]))
+                     if through.any() else None)
+    result = {
+        "viewer": viewer.name,
+        "eye_mm": list(viewer.eye_mm),
+        "wavelengths_nm": list(scene.settings.wavelengths_nm),
+        "hidden_fraction": hidden,
+        "object_seen_ratio": ratio,
+        "background_ssim": m.background_ssim(srgb["cloaked"], srgb["reference"], through_px),
+        "background_shift_arcmin": m.percentiles(shift),
+        "background_shift_mm": m.percentiles(shift_mm),
+        "transmittance": transmittance,
+        "color_fringe_arcmin": fringe if through.any() else None,
+        "through_pixels": int(through_px.sum()),
+        "background_layer": wall.name,
+    }
+    result["verdict"] = m.verdict(result)
+    return result

@@ -1,0 +1,1 @@
+"""Bundled demo exhibits (invented scenarios) and the script that draws their pictures."""
