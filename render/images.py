@@ -63,20 +63,20 @@ def read_texture(path: Path, key: str, source: str) -> np.ndarray:
     """
     if not path.is_file():
         raise InputError(key, str(path), "image file not found", source)
+    encoded = path.read_bytes()
+    unreadable = InputError(key, str(path), "cannot read this image; use a PNG or JPEG file",
+                            source)
     try:
-        meta = iio.improps(path)
-        shape = meta.shape
-    except Exception as error:  # noqa: BLE001 - any decoder failure is the user's file
-        raise InputError(key, str(path), f"cannot read this image ({error.__class__.__name__})",
-                         source) from None
+        shape = iio.improps(encoded).shape
+    except Exception:  # noqa: BLE001 - any decoder failure is the user's file
+        raise unreadable from None
     if len(shape) < 2 or max(shape[:2]) > MAX_TEXTURE_SIDE or min(shape[:2]) < 1:
         raise InputError(key, str(path), f"image is {shape[:2]} pixels; each side must be "
                          f"between 1 and {MAX_TEXTURE_SIDE}", source)
     try:
-        data = iio.imread(path)
-    except Exception as error:  # noqa: BLE001
-        raise InputError(key, str(path), f"cannot read this image ({error.__class__.__name__})",
-                         source) from None
+        data = iio.imread(encoded)
+    except Exception:  # noqa: BLE001
+        raise unreadable from None
     if data.ndim == 2:
         data = np.stack([data] * 3, axis=-1)
     if data.dtype == np.uint16:

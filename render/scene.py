@@ -163,12 +163,21 @@ class _Table:
         self.used.add(name)
         return self.data.get(name, default)
 
+    def missing(self, name: str, rule: str) -> InputError:
+        """The error for a required key that is absent (or misspelt: then say so)."""
+        close = difflib.get_close_matches(name, [k for k in self.data if k not in self.used],
+                                          n=1, cutoff=0.8)
+        if close:
+            return self.error(close[0], self.data[close[0]], f"unknown key; did you mean "
+                              f"'{name}'?")
+        return self.error(name, None, rule)
+
     def number(self, name: str, default=None, *, positive=False, low=None, high=None,
                required=False) -> float:
         value = self.get(name, default)
         if value is None:
             if required:
-                raise self.error(name, None, "is required")
+                raise self.missing(name, "is required")
             return None
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise self.error(name, value, "must be a number")
@@ -201,7 +210,7 @@ class _Table:
     def string(self, name: str, default=None, required=False) -> str:
         value = self.get(name, default)
         if value is None and required:
-            raise self.error(name, None, "is required")
+            raise self.missing(name, "is required")
         if value is not None and not isinstance(value, str):
             raise self.error(name, value, "must be a string")
         return value
@@ -210,7 +219,7 @@ class _Table:
         value = self.get(name, default)
         if value is None:
             if required:
-                raise self.error(name, None, f"is required: a list of {length} numbers in mm")
+                raise self.missing(name, f"is required: a list of {length} numbers in mm")
             return None
         if (not isinstance(value, (list, tuple)) or len(value) != length
                 or not all(isinstance(v, (int, float)) and not isinstance(v, bool)

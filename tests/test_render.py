@@ -1,0 +1,148 @@
+"""Rendering: what a visitor sees through the device, checked against optics facts."""
+
+import dataclasses
+import json
+
+import numpy as np
+import pytest
+from scenes import DOT, RING, write_scene
+
+from render.cli import main
+from render.composite import channel_weights
+from render.images import linear_to_srgb, srgb_to_linear
+from render.scene import load_scene
+from render.views import render_viewer
+
+IDEAL = "ideal = true"
+
+
+def _metrics(tmp_path, **kwargs):
+    scene = load_scene(write_scene(tmp_path, **kwargs))
+    return render_viewer(scene, scene.viewers[0], views=()).metrics
+
+
+def test_transparent_device_equals_reference_pixel_for_pixel(tmp_path):
+    # Ideal lenses of enormous focal length and a housing far larger than the view: the
+    # full cloaked pipeline (camera, tracer, housing split, layers) must reproduce the
+    # no-device reference exactly.
+    device = """
+[device]
+axis_height_mm = 1150
+[[device.lens]]
+z_mm = 0
+focal_length_mm = 1e15
+diameter_mm = 20000
+[[device.lens]]
+z_mm = 300
+focal_length_mm = 1e15
+diameter_mm = 20000
+
+[housing]
+tube_diameter_mm = 20000
+hole_diameter_mm = 20000
+panel_width_mm = 20000
+panel_height_mm = 20000
+"""
+    path = write_scene(tmp_path)
+    text = path.read_text()
+    path.write_text(text[:text.index("[device]")] + device + text[text.index("[[layer]]"):])
+    scene = load_scene(path)
+    images = render_viewer(scene, scene.viewers[0], views=("cloaked", "reference")).images
+    assert np.array_equal(images["cloaked"], images["reference"])
+    assert images["cloaked"].std() > 10  # the poster is really in view
+
+
+def test_ideal_cloak_shows_background_as_free_space(tmp_path):
+    # Choi and Howell (2014): the ideal four-lens cloak is free space, so the through-view
+    # matches the no-device reference: SSIM (Wang et al. 2004) near 1, no shift, no fringe.
+    m = _metrics(tmp_path, render_extra=IDEAL, width=160, height=120)
+    assert m["through_pixels"] > 200
+    assert m["background_ssim"] > 0.99
+    assert m["background_shift_arcmin"]["p95"] < 1e-6
+    assert m["color_fringe_arcmin"] == 0.0
+
+
+def test_ring_vanishes_on_axis_but_axis_object_shows(tmp_path):
+    # Choi and Howell (2014): the cloaked region is a ring around the axis; the axis itself
+    # is not cloaked.
+    ring = _metrics(tmp_path / "ring", layers=RING, render_extra=IDEAL)
+    dot = _metrics(tmp_path / "dot", layers=DOT, render_extra=IDEAL)
+    assert ring["hidden_fraction"] >= 0.95
+    assert dot["hidden_fraction"] < 0.2
+
+
+def test_ring_reappears_off_axis(tmp_path):
+    # Moving the eye 30 mm sideways moves its image through the first lens about
+    # 30 * f1 / (D - f1) = 13 mm off axis, onto the ring (radius 7 to 21 mm).
+    scene = load_scene(write_scene(tmp_path, layers=RING, render_extra=IDEAL))
+    on = render_viewer(scene, scene.viewers[0], views=()).metrics
+    viewer = dataclasses.replace(scene.viewers[0], eye_mm=(30.0, 1150.0, -600.0))
+    side = render_viewer(scene, viewer, views=()).metrics
+    assert on["hidden_fraction"] >= 0.95
+    assert side["hidden_fraction"] < 0.5
+
+
+def test_real_lenses_hide_the_ring_and_show_colour_fringes(tmp_path):
+    m = _metrics(tmp_path, layers=RING, render_extra="wavelengths_nm = [486.13, 587.56, "
+                 "656.27]", width=128, height=96)
+    assert m["hidden_fraction"] >= 0.95
+    assert m["color_fringe_arcmin"] > 0.0
+
+
+@pytest.mark.parametrize("coated, expected", [
+    # Hecht, Optics sec. 4.6: R = ((n - 1)/(n + 1))^2 per bare surface at normal incidence,
+    # eight surfaces: (1 - R)^8 with the acrylic index n_d = 1.4914 (Kasarova et al. 2007).
+    (False, (1 - ((1.4914 - 1) / (1.4914 + 1)) ** 2) ** 8),
+    # Coated: 0.5 % residual per surface (common practice for broadband AR; from memory).
+    (True, 0.995 ** 8),
+])
+def test_fresnel_dimming(tmp_path, coated, expected):
+    m = _metrics(tmp_path, device_extra=f"coated = {str(coated).lower()}",
+                 render_extra="wavelengths_nm = [587.56]")
+    assert m["transmittance"] == pytest.approx(expected, rel=0.01)
+
+
+def test_srgb_transfer_function():
+    # IEC 61966-2-1: sRGB 0.5 decodes to 0.21404 linear; the two pieces meet at 0.04045.
+    assert float(srgb_to_linear(0.5)) == pytest.approx(0.21404, abs=1e-5)
+    assert float(srgb_to_linear(0.04045)) == pytest.approx(0.04045 / 12.92, rel=1e-6)
+    values = np.linspace(0, 1, 1001, dtype=np.float32)
+    np.testing.assert_allclose(linear_to_srgb(srgb_to_linear(values)), values, atol=2e-6)
+
+
+@pytest.mark.parametrize("wavelengths", [[587.56], [486.13, 587.56, 656.27],
+                                         [450, 500, 550, 600, 650]])
+def test_channel_weights_keep_grey_grey(wavelengths):
+    weights = channel_weights(wavelengths)
+    np.testing.assert_allclose(weights.sum(axis=0), 1.0)
+
+
+def test_three_lines_map_to_blue_green_red():
+    np.testing.assert_array_equal(channel_weights([486.13, 587.56, 656.27]),
+                                  [[0, 0, 1], [0, 1, 0], [1, 0, 0]])
+
+
+def test_render_command_writes_views_and_metrics(tmp_path, capsys):
+    path = write_scene(tmp_path / "scene", layers=RING)
+    out = tmp_path / "out"
+    assert main(["render", str(path), "--out", str(out), "--size", "64x48", "--json"]) == 0
+    printed = json.loads(capsys.readouterr().out)
+    assert printed[0]["viewer"] == "on-axis"
+    for view in ("cloaked", "reference", "naked", "difference", "vanish"):
+        assert (out / "on-axis" / f"{view}.png").is_file()
+    saved = json.loads((out / "on-axis" / "metrics.json").read_text())
+    assert saved["hidden_fraction"] == printed[0]["hidden_fraction"]
+    assert (out / "metrics.csv").read_text().count("\n") == 2
+    run = json.loads((out / "run.json").read_text())
+    assert run["options"]["viewers"] == ["on-axis"] and len(run["scene_sha256"]) == 64
+
+
+def test_render_from_a_typed_eye_point(tmp_path, capsys):
+    path = write_scene(tmp_path / "scene", layers=RING)
+    out = tmp_path / "out"
+    assert main(["render", str(path), "--eye", "30,1150,-600", "--views", "cloaked",
+                 "--out", str(out), "--size", "48x32"]) == 0
+    assert (out / "custom" / "cloaked.png").is_file()
+    assert not (out / "custom" / "naked.png").exists()
+    assert main(["render", str(path), "--eye", "0,1150", "--out", str(out)]) == 2
+    assert "--eye = '0,1150': must be three finite numbers" in capsys.readouterr().err
