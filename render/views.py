@@ -54,9 +54,10 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample):
     image = None
     maps = {}
     coverage = None
+    rays, grid = camera_rays(viewer, scene.placement, supersample, trace_wavelengths[0])
+    shape = (grid.pupil, grid.rows, grid.columns)
     for k, wl in enumerate(trace_wavelengths):
-        rays, grid = camera_rays(viewer, scene.placement, supersample, wl)
-        shape = (grid.pupil, grid.rows, grid.columns)
+        rays.wavelength_nm[:] = wl  # same eye rays, traced again at each wavelength
         ray_map = map_rays(scene, rays, setup)
         rgb, hidden = composite_rays(scene, ray_map, pyramids, shape)
         rgb = resolve_samples(rgb, shape, supersample)
@@ -77,12 +78,16 @@ def _front_background(scene: Scene):
                key=lambda layer: layer.z_mm)
 
 
-def _difference_image(cloaked_srgb, reference_srgb) -> np.ndarray:
+def _difference_image(cloaked_srgb, reference_srgb, inside_hole) -> np.ndarray:
+    """Heat map of cloaked against reference where the eye looks into the viewing hole;
+    elsewhere (panel, tube, room) the cloaked view in dim grey, for orientation."""
     diff = np.abs(cloaked_srgb - reference_srgb).max(axis=-1)
     heat = cv2.applyColorMap(np.round(np.clip(diff, 0, 1) * 255).astype(np.uint8),
                              cv2.COLORMAP_INFERNO)[..., ::-1]
-    return _with_legend(heat, "difference from a perfect cloak: black = none, yellow = "
-                        "full scale (sRGB)")
+    grey = np.round(255 * (0.15 + 0.35 * cloaked_srgb.mean(axis=-1))).astype(np.uint8)
+    image = np.where(inside_hole[..., None], heat, grey[..., None])
+    return _with_legend(image, "in the viewing hole: black = unchanged, yellow = fully "
+                        "different")
 
 
 def _with_legend(image: np.ndarray, text: str) -> np.ndarray:
@@ -90,6 +95,8 @@ def _with_legend(image: np.ndarray, text: str) -> np.ndarray:
     strip = max(14, h // 18)
     out = np.concatenate([image, np.full((strip, w, 3), 24, np.uint8)], axis=0)
     scale = strip / 30.0
+    width = cv2.getTextSize(text, cv2.FONT_HERSHEY_SIMPLEX, scale, 1)[0][0]
+    scale *= min(1.0, (w - 8) / width)  # shrink to fit narrow images
     cv2.putText(out, text, (4, h + int(strip * 0.72)), cv2.FONT_HERSHEY_SIMPLEX, scale,
                 (235, 235, 235), 1, cv2.LINE_AA)
     return out
@@ -142,7 +149,10 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
         if name in traced:
             images[name] = to_uint8(traced[name][0])
         elif name == "difference":
-            images[name] = _difference_image(srgb["cloaked"], srgb["reference"])
+            ray_map, shape = traced["cloaked"][2][_design_wavelength(traced["cloaked"][2])]
+            inside = resolve_samples(ray_map.result.entered.astype(np.float32), shape,
+                                     ss)[..., 0] >= 0.5
+            images[name] = _difference_image(srgb["cloaked"], srgb["reference"], inside)
         elif name == "vanish":
             images[name] = _vanish_image(srgb["cloaked"], cloaked_cov, naked_cov)
     return ViewerRender(viewer, images, metrics, time.perf_counter() - start)
