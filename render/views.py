@@ -79,8 +79,10 @@ def _front_background(scene: Scene):
 
 
 def _difference_image(cloaked_srgb, reference_srgb, inside_hole) -> np.ndarray:
-    """Heat map of cloaked against reference where the eye looks into the viewing hole;
-    elsewhere (panel, tube, room) the cloaked view in dim grey, for orientation."""
+    """Heat map of cloaked against reference where the eye looks into the viewing hole.
+
+    Elsewhere (panel, tube, room) the cloaked view in dim grey, for orientation.
+    """
     diff = np.abs(cloaked_srgb - reference_srgb).max(axis=-1)
     heat = cv2.applyColorMap(np.round(np.clip(diff, 0, 1) * 255).astype(np.uint8),
                              cv2.COLORMAP_INFERNO)[..., ::-1]
