@@ -32,10 +32,12 @@ References
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass
 
 import numpy as np
 
+from optics.errors import InputError
 from optics.fresnel import unpolarised_transmittance
 from optics.materials import Material
 from optics.surfaces import Housing, IdealLens, Probe, Refracting
@@ -310,7 +312,37 @@ def _stop_at_outside_wall(bundle: _Bundle, before_z: float, out: _Output) -> _Bu
     return out.retire(bundle, rows, WALL)
 
 
-def trace(rays: Rays, elements, housing: Housing | None = None) -> TraceResult:
+def _wavelength_table(wavelength_nm: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Distinct wavelengths and each ray's row among them (fast when all are one)."""
+    if len(wavelength_nm) and np.all(wavelength_nm == wavelength_nm[0]):
+        return wavelength_nm[:1].copy(), np.zeros(len(wavelength_nm), np.int64)
+    values, index = np.unique(wavelength_nm, return_inverse=True)
+    return values, index.reshape(-1).astype(np.int64)
+
+
+def available_backends() -> tuple[str, ...]:
+    """The tracing paths this machine can run: always "numpy", "compiled" with numba."""
+    try:
+        import optics.trace_kernel  # noqa: F401
+    except ImportError:
+        return ("numpy",)
+    return ("numpy", "compiled")
+
+
+def _choose_backend(backend: str | None) -> str:
+    choice = (backend or os.environ.get("CLOAKVIEW_TRACER") or "auto").lower()
+    if choice not in ("auto", "numpy", "compiled"):
+        raise InputError("CLOAKVIEW_TRACER", choice, "must be auto, numpy or compiled")
+    if choice == "auto":
+        return available_backends()[-1]
+    if choice not in available_backends():
+        raise InputError("CLOAKVIEW_TRACER", choice, "the compiled tracer needs numba "
+                         "(pip install numba)")
+    return choice
+
+
+def trace(rays: Rays, elements, housing: Housing | None = None,
+          backend: str | None = None) -> TraceResult:
     """Trace ``rays`` through ``elements`` (in z order) and the optional ``housing``.
 
     Parameters
@@ -321,19 +353,71 @@ def trace(rays: Rays, elements, housing: Housing | None = None) -> TraceResult:
         Sorted here by ``z_mm`` (stable, so ties keep their order).
     housing : Housing, optional
         Panel and tube; without it every ray is inside the device.
+    backend : {"auto", "numpy", "compiled"}, optional
+        Which path runs; default from the ``CLOAKVIEW_TRACER`` environment variable,
+        else "auto" (compiled when numba is installed). Both give the same result.
 
     Returns
     -------
     TraceResult
     """
+    ordered = sorted(elements, key=lambda e: e.z_mm)
+    if _choose_backend(backend) == "compiled":
+        return _trace_compiled(rays, ordered, housing)
+    return _trace_numpy(rays, ordered, housing)
+
+
+def _trace_compiled(rays: Rays, ordered, housing: Housing | None) -> TraceResult:
+    from optics import trace_kernel as kernel
+
+    count = len(rays)
+    wavelengths, wl_index = _wavelength_table(rays.wavelength_nm)
+    codes = {Refracting: kernel.REFRACT, IdealLens: kernel.IDEAL, Probe: kernel.PROBE}
+    n_el = len(ordered)
+    kind = np.array([codes[type(e)] for e in ordered], np.int8)
+    ez = np.array([e.z_mm for e in ordered], float)
+    curv = np.array([getattr(e, "curvature_per_mm", 0.0) for e in ordered], float)
+    semi = np.array([getattr(e, "semi_aperture_mm", np.inf) for e in ordered], float)
+    focal = np.array([getattr(e, "focal_length_mm", np.inf) for e in ordered], float)
+    coat = np.array([-1.0 if getattr(e, "coating_reflectance", None) is None
+                     else e.coating_reflectance for e in ordered], float)
+    probes = [e for e in ordered if isinstance(e, Probe)]
+    slot = np.array([probes.index(e) if isinstance(e, Probe) else -1 for e in ordered],
+                    np.int64)
+    n_before = np.ones((max(n_el, 1), len(wavelengths)))
+    n_after = np.ones((max(n_el, 1), len(wavelengths)))
+    for i, e in enumerate(ordered):
+        if isinstance(e, Refracting):
+            n_before[i] = e.before.index(wavelengths)
+            n_after[i] = e.after.index(wavelengths)
+    if housing is None:
+        box, panel_index = np.zeros(7), 0
+    else:
+        box = np.array([1.0, housing.panel_z_mm, housing.hole_radius_mm,
+                        housing.panel_half_width_mm, housing.panel_half_height_mm,
+                        housing.tube_radius_mm, housing.tube_end_mm])
+        panel_index = sum(1 for e in ordered if e.z_mm < housing.panel_z_mm)
+    state = np.empty((7, count))
+    fate = np.empty(count, np.int8)
+    entered = np.empty(count, bool)
+    cross = np.full((max(len(probes), 1), 3, count), np.nan)
+    kernel.trace_rays(rays.x, rays.y, rays.z, rays.dx, rays.dy, rays.dz, rays.throughput,
+                      wl_index, kind, ez, curv, semi, focal,
+                      coat, slot, n_before, n_after, box, panel_index, state, fate, entered,
+                      cross)
+    crossings = {p.name: Crossing(cross[k, 0], cross[k, 1], cross[k, 2])
+                 for k, p in enumerate(probes)}
+    return TraceResult(*state[:6], state[6], fate, entered, crossings)
+
+
+def _trace_numpy(rays: Rays, ordered, housing: Housing | None) -> TraceResult:
     count = len(rays)
     out = _Output(count)
-    wavelengths, wl_index = np.unique(rays.wavelength_nm, return_inverse=True)
+    wavelengths, wl_index = _wavelength_table(rays.wavelength_nm)
     start = _Bundle(np.arange(count), rays.x.copy(), rays.y.copy(), rays.z.copy(),
                     rays.dx.copy(), rays.dy.copy(), rays.dz.copy(), rays.throughput.copy(),
-                    wl_index.reshape(-1), np.full(count, np.inf))
+                    wl_index, np.full(count, np.inf))
     start = out.retire(start, start.dz <= 0.0, BACKWARD)
-    ordered = sorted(elements, key=lambda e: e.z_mm)
     crossings = {e.name: Crossing(np.full(count, np.nan), np.full(count, np.nan),
                                   np.full(count, np.nan)) for e in ordered
                  if isinstance(e, Probe)}

@@ -51,13 +51,17 @@ def _basis(viewer: Viewer) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return forward, right, np.cross(forward, right)
 
 
-def pixel_directions(viewer: Viewer, supersample: int) -> np.ndarray:
-    """Pinhole directions (rows, columns, 3) in the room frame, row 0 at the top."""
+def pixel_directions(viewer: Viewer, supersample: int, row_range=None) -> np.ndarray:
+    """Pinhole directions (rows, columns, 3) in the room frame, row 0 at the top.
+
+    ``row_range`` = (first, stop) limits the sample rows (of height x supersample).
+    """
     forward, right, up = _basis(viewer)
     cols, rows = viewer.width_px * supersample, viewer.height_px * supersample
+    first, stop = row_range or (0, rows)
     half = math.tan(math.radians(viewer.fov_deg) / 2.0)
     px = ((np.arange(cols) + 0.5) / cols * 2.0 - 1.0) * half
-    py = (1.0 - (np.arange(rows) + 0.5) / rows * 2.0) * half * rows / cols
+    py = (1.0 - (np.arange(first, stop) + 0.5) / rows * 2.0) * half * rows / cols
     d = forward + px[None, :, None] * right + py[:, None, None] * up
     return d / np.linalg.norm(d, axis=-1, keepdims=True)
 
@@ -74,7 +78,7 @@ def _pupil_offsets(viewer: Viewer) -> np.ndarray:
 
 
 def camera_rays(viewer: Viewer, placement: Placement, supersample: int,
-                wavelength_nm: float) -> tuple[Rays, SampleGrid]:
+                wavelength_nm: float, row_range=None) -> tuple[Rays, SampleGrid]:
     """Rays for every sample of ``viewer``, in the device frame.
 
     Parameters
@@ -87,8 +91,10 @@ def camera_rays(viewer: Viewer, placement: Placement, supersample: int,
         Samples per pixel along each axis.
     wavelength_nm : float
         Wavelength given to every ray [nm].
+    row_range : tuple of int, optional
+        (first, stop) sample rows to make, for rendering in bands.
     """
-    directions = pixel_directions(viewer, supersample)
+    directions = pixel_directions(viewer, supersample, row_range)
     rows, cols = directions.shape[:2]
     offsets = _pupil_offsets(viewer)
     eye = np.asarray(viewer.eye_mm, float)

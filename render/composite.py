@@ -55,32 +55,42 @@ def _remap(texture: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
     if n == 0:
         return np.zeros((0, 4), np.float32)
     rows = -(-n // _REMAP_COLUMNS)
-    pad = rows * _REMAP_COLUMNS - n
-    mu = np.pad(np.nan_to_num(u, nan=-10.0), (0, pad), constant_values=-10.0)
-    mv = np.pad(np.nan_to_num(v, nan=-10.0), (0, pad), constant_values=-10.0)
-    sampled = cv2.remap(texture, mu.reshape(rows, -1), mv.reshape(rows, -1),
+    maps = np.full((2, rows * _REMAP_COLUMNS), -10.0, np.float32)  # -10: off the picture
+    maps[0, :n] = u
+    maps[1, :n] = v
+    np.copyto(maps, np.float32(-10.0), where=np.isnan(maps))
+    sampled = cv2.remap(texture, maps[0].reshape(rows, -1), maps[1].reshape(rows, -1),
                         interpolation=cv2.INTER_LINEAR, borderMode=cv2.BORDER_CONSTANT,
                         borderValue=(0, 0, 0, 0))
     return sampled.reshape(-1, 4)[:n]
 
 
+def _neighbour_span(values: np.ndarray, axis: int) -> np.ndarray:
+    """|Difference| to the next sample along ``axis``, else to the previous one.
+
+    NaN only where both neighbours are missing.
+    """
+    d = np.abs(np.diff(values, axis=axis))
+    span = np.empty_like(values)
+    head = [slice(None)] * values.ndim
+    tail = [slice(None)] * values.ndim
+    last = [slice(None)] * values.ndim
+    head[axis], tail[axis], last[axis] = slice(None, -1), slice(1, None), -1
+    span[tuple(head)] = d
+    span[tuple(last)] = np.nan
+    np.fmax(span[tuple(tail)], d, out=span[tuple(tail)])
+    return span
+
+
 def _footprint_levels(u: np.ndarray, v: np.ndarray, grid_shape) -> np.ndarray:
-    """Mip level per ray from how far apart neighbouring samples land [texels]."""
-    uu, vv = u.reshape(grid_shape), v.reshape(grid_shape)
-    spans = []
-    for axis in (-1, -2):
-        for arr in (uu, vv):
-            d = np.abs(np.diff(arr, axis=axis))
-            pad = [(0, 0)] * arr.ndim
-            pad[axis] = (0, 1)
-            forward = np.pad(d, pad, constant_values=np.nan)
-            pad[axis] = (1, 0)
-            backward = np.pad(d, pad, constant_values=np.nan)
-            spans.append(np.where(np.isnan(forward), backward, forward))
-    footprint = np.nan_to_num(np.stack(spans), nan=-1.0).max(axis=0).reshape(-1)
-    footprint[footprint < 0.0] = 1.0  # no neighbour on this layer: take the finest level
-    with np.errstate(divide="ignore"):
-        return np.log2(np.maximum(footprint, 1.0))
+    """Mip level per ray from how far apart neighbouring samples land [texels] [2]."""
+    footprint = None
+    for values in (u.reshape(grid_shape), v.reshape(grid_shape)):
+        for axis in (-1, -2):
+            span = _neighbour_span(values, axis)
+            footprint = span if footprint is None else np.fmax(footprint, span, out=footprint)
+    # fmax turns NaN (no neighbour on this layer) and spans below a texel into 1: level 0.
+    return np.log2(np.fmax(footprint.reshape(-1), np.float32(1.0)))
 
 
 def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
@@ -90,19 +100,20 @@ def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
     rows = np.flatnonzero(~np.isnan(u))
     if not len(rows):
         return out
-    level = np.full(len(u), 0.0)
-    level[rows] = np.minimum(_footprint_levels(u, v, grid_shape)[rows], len(pyramid) - 1)
-    top = int(math.ceil(level[rows].max()))
+    level = np.minimum(_footprint_levels(u, v, grid_shape)[rows], len(pyramid) - 1)
+    top = int(math.ceil(level.max()))
     for k in range(top + 1):
-        weight = 1.0 - np.abs(level[rows] - k)
+        weight = 1.0 - np.abs(level - k)
         use = weight > 0.0
         if not use.any():
             continue
-        pick = rows[use]
-        scale = 2.0**-k
+        pick = rows[use] if top else rows
+        scale = np.float32(2.0**-k)
         samples = _remap(pyramid[k], (u[pick] + 0.5) * scale - 0.5,
                          (v[pick] + 0.5) * scale - 0.5)
-        out[pick] += samples * weight[use, None].astype(np.float32)
+        if top:
+            samples *= weight[use, None]
+        out[pick] += samples
     return out
 
 
@@ -129,7 +140,7 @@ def _housing_colour(scene: Scene, ray_map: RayMap) -> np.ndarray:
         base = np.where((r.fate[inside] == MOUNT)[:, None], scene.tube_rgb * 1.25,
                         scene.tube_rgb)
         colour[inside] = base * fade[:, None]
-    colour[struck] *= np.nan_to_num(r.throughput[struck], nan=1.0)[:, None].astype(np.float32)
+    colour[struck] *= r.throughput[struck, None].astype(np.float32)
     return colour
 
 
@@ -150,7 +161,8 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
         rgba = sample_layer(pyramids.levels[hit.layer.name], hit.u, hit.v, grid_shape)
         rgba *= np.float32(hit.layer.opacity)
         alpha = rgba[:, 3]
-        tp = np.nan_to_num(hit.throughput, nan=0.0).astype(np.float32)
+        tp = hit.throughput.astype(np.float32)
+        np.copyto(tp, np.float32(0.0), where=np.isnan(tp))
         rgb += (clear * tp)[:, None] * rgba[:, :3]
         if hit.layer.role == "hidden":
             hidden += clear * alpha

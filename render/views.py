@@ -46,27 +46,84 @@ class ViewerRender:
     seconds: float
 
 
-def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample):
-    """Linear image, hidden coverage and per-wavelength ray maps for one traced view."""
+#: Rays per band: frames are traced and composited in bands of rows of about this many
+#: rays, so a 4K frame stays within a few hundred megabytes (our own choice).
+BAND_RAYS = 400_000
+
+
+@dataclass
+class RayRecord:
+    """What the metrics need of the kept rays at one wavelength, over all bands.
+
+    ``index`` numbers the rays of the frame (the same in every view); the cloaked view
+    keeps only rays that pass through the device, the others keep every ray.
+    """
+
+    index: np.ndarray
+    throughput: np.ndarray
+    wall_x: np.ndarray
+    wall_y: np.ndarray
+
+
+@dataclass
+class TracedView:
+    """One traced view: linear image, per-pixel coverages and per-ray records."""
+
+    image: np.ndarray
+    hidden: np.ndarray
+    entered: np.ndarray
+    through: np.ndarray
+    records: dict[float, RayRecord]
+
+
+def _bands(viewer: Viewer, supersample: int):
+    rows = viewer.height_px * supersample
+    per_row = viewer.width_px * supersample * max(viewer.pupil_samples, 1)
+    step = max(supersample, BAND_RAYS // per_row // supersample * supersample)
+    return [(r, min(r + step, rows)) for r in range(0, rows, step)]
+
+
+def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample) -> TracedView:
+    """Trace and composite one view band by band; keep what the metrics need."""
     weights = channel_weights(wavelengths)
     dispersive = setup.lenses and any(isinstance(s, Refracting) for s in scene.system.surfaces)
     trace_wavelengths = wavelengths if dispersive else (_design_wavelength(wavelengths),)
-    image = None
-    maps = {}
-    coverage = None
-    rays, grid = camera_rays(viewer, scene.placement, supersample, trace_wavelengths[0])
-    shape = (grid.pupil, grid.rows, grid.columns)
-    for k, wl in enumerate(trace_wavelengths):
-        rays.wavelength_nm[:] = wl  # same eye rays, traced again at each wavelength
-        ray_map = map_rays(scene, rays, setup)
-        rgb, hidden = composite_rays(scene, ray_map, pyramids, shape)
-        rgb = resolve_samples(rgb, shape, supersample)
-        part = rgb * weights[k][None, None, :] if dispersive else rgb
-        image = part if image is None else image + part
-        maps[wl] = (ray_map, shape)
-        if coverage is None or wl == _design_wavelength(trace_wavelengths):
-            coverage = resolve_samples(hidden, shape, supersample)[..., 0]
-    return image, coverage, maps
+    design = _design_wavelength(trace_wavelengths)
+    kept = {design, min(trace_wavelengths), max(trace_wavelengths)}
+    wall = _front_background(scene).name
+    h, w = viewer.height_px, viewer.width_px
+    image = np.zeros((h, w, 3), np.float32)
+    cover = {name: np.zeros((h, w), np.float32) for name in ("hidden", "entered", "through")}
+    parts = {wl: [] for wl in kept}
+    offset = 0
+    for r0, r1 in _bands(viewer, supersample):
+        rays, grid = camera_rays(viewer, scene.placement, supersample, trace_wavelengths[0],
+                                 (r0, r1))
+        shape = (grid.pupil, grid.rows, grid.columns)
+        rows = slice(r0 // supersample, r1 // supersample)
+        for k, wl in enumerate(trace_wavelengths):
+            rays.wavelength_nm[:] = wl  # the same eye rays, traced at each wavelength
+            ray_map = map_rays(scene, rays, setup)
+            rgb, hidden = composite_rays(scene, ray_map, pyramids, shape)
+            rgb = resolve_samples(rgb, shape, supersample)
+            image[rows] += rgb * weights[k] if dispersive else rgb
+            through = ray_map.through_device
+            if wl == design:
+                cover["hidden"][rows] = resolve_samples(hidden, shape, supersample)[..., 0]
+                for name, values in (("entered", ray_map.result.entered), ("through", through)):
+                    cover[name][rows] = resolve_samples(values.astype(np.float32), shape,
+                                                        supersample)[..., 0]
+            if wl in kept:
+                crossing = ray_map.result.crossings[wall]
+                keep = np.flatnonzero(through) if setup.lenses else slice(None)
+                parts[wl].append((np.arange(offset, offset + len(through))[keep],
+                                  ray_map.result.throughput[keep], crossing.x[keep],
+                                  crossing.y[keep]))
+        offset += grid.count
+    records = {wl: RayRecord(*(np.concatenate(column) for column in zip(*chunks,
+                                                                        strict=True)))
+               for wl, chunks in parts.items()}
+    return TracedView(image, cover["hidden"], cover["entered"], cover["through"], records)
 
 
 def _design_wavelength(wavelengths) -> float:
@@ -137,57 +194,50 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
     start = time.perf_counter()
     pyramids = pyramids or TexturePyramids(scene)
     ss = supersample or scene.settings.supersample
-    wavelengths = scene.settings.wavelengths_nm
     traced = {}
     for name, setup in SETUPS.items():
-        traced[name] = _trace_view(scene, viewer, setup, wavelengths, pyramids, ss)
+        traced[name] = _trace_view(scene, viewer, setup, scene.settings.wavelengths_nm,
+                                   pyramids, ss)
         if progress:
             progress(f"{viewer.name}: {name}")
-    srgb = {name: linear_to_srgb(t[0]) for name, t in traced.items()}
-    cloaked_cov, naked_cov = traced["cloaked"][1], traced["naked"][1]
-    metrics = _measure(scene, viewer, traced, srgb, ss)
+    srgb = {name: linear_to_srgb(t.image) for name, t in traced.items()}
+    metrics = _measure(scene, viewer, traced, srgb)
     images = {}
     for name in views:
         if name in traced:
-            images[name] = to_uint8(traced[name][0])
+            images[name] = to_uint8(traced[name].image)
         elif name == "difference":
-            ray_map, shape = traced["cloaked"][2][_design_wavelength(traced["cloaked"][2])]
-            inside = resolve_samples(ray_map.result.entered.astype(np.float32), shape,
-                                     ss)[..., 0] >= 0.5
-            images[name] = _difference_image(srgb["cloaked"], srgb["reference"], inside)
+            images[name] = _difference_image(srgb["cloaked"], srgb["reference"],
+                                             traced["cloaked"].entered >= 0.5)
         elif name == "vanish":
-            images[name] = _vanish_image(srgb["cloaked"], cloaked_cov, naked_cov)
+            images[name] = _vanish_image(srgb["cloaked"], traced["cloaked"].hidden,
+                                         traced["naked"].hidden)
     return ViewerRender(viewer, images, metrics, time.perf_counter() - start)
 
 
-def _measure(scene, viewer, traced, srgb, ss) -> dict:
-    cloaked_maps = traced["cloaked"][2]
-    design_wl = _design_wavelength(list(cloaked_maps))
-    ray_map, shape = cloaked_maps[design_wl]
-    reference_map, _ = next(iter(traced["reference"][2].values()))
-    through = ray_map.through_device
-    through_px = resolve_samples(through.astype(np.float32), shape, ss)[..., 0] >= 0.999
-    hidden, ratio = m.hidden_fraction(traced["cloaked"][1], traced["naked"][1])
+def _measure(scene, viewer, traced, srgb) -> dict:
+    cloaked = traced["cloaked"]
+    records = cloaked.records
+    seen = records[_design_wavelength(list(records))]
+    ref = next(iter(traced["reference"].records.values()))
+    through_px = cloaked.through >= 0.999
+    hidden, ratio = m.hidden_fraction(cloaked.hidden, traced["naked"].hidden)
     wall = _front_background(scene)
     eye = scene.placement.to_device(np.asarray(viewer.eye_mm, float))
-    seen = ray_map.result.crossings[wall.name]
-    ref = reference_map.result.crossings[wall.name]
-    both = through & seen.reached & ref.reached
-    shift = m.angular_shift_arcmin(eye, seen.x[both], seen.y[both], ref.x[both], ref.y[both],
+    rx, ry = ref.wall_x[seen.index], ref.wall_y[seen.index]
+    ok = ~np.isnan(seen.wall_x) & ~np.isnan(rx)
+    shift = m.angular_shift_arcmin(eye, seen.wall_x[ok], seen.wall_y[ok], rx[ok], ry[ok],
                                    wall.z_mm)
-    shift_mm = np.hypot(seen.x[both] - ref.x[both], seen.y[both] - ref.y[both])
-    fringe = None
-    if len(cloaked_maps) > 1:
-        short = cloaked_maps[min(cloaked_maps)][0]
-        long = cloaked_maps[max(cloaked_maps)][0]
-        a, b = short.result.crossings[wall.name], long.result.crossings[wall.name]
-        ok = short.through_device & long.through_device & a.reached & b.reached
-        spread = m.angular_shift_arcmin(eye, a.x[ok], a.y[ok], b.x[ok], b.y[ok], wall.z_mm)
+    shift_mm = np.hypot(seen.wall_x[ok] - rx[ok], seen.wall_y[ok] - ry[ok])
+    fringe = 0.0
+    if len(records) > 1:
+        a, b = records[min(records)], records[max(records)]
+        _, ia, ib = np.intersect1d(a.index, b.index, assume_unique=True, return_indices=True)
+        spread = m.angular_shift_arcmin(eye, a.wall_x[ia], a.wall_y[ia], b.wall_x[ib],
+                                        b.wall_y[ib], wall.z_mm)
+        spread = spread[np.isfinite(spread)]
         fringe = float(np.percentile(spread, 95)) if spread.size else None
-    else:
-        fringe = 0.0
-    transmittance = (float(np.mean(ray_map.result.throughput[through]))
-                     if through.any() else None)
+    any_through = seen.index.size > 0
     result = {
         "viewer": viewer.name,
         "eye_mm": list(viewer.eye_mm),
@@ -197,8 +247,8 @@ def _measure(scene, viewer, traced, srgb, ss) -> dict:
         "background_ssim": m.background_ssim(srgb["cloaked"], srgb["reference"], through_px),
         "background_shift_arcmin": m.percentiles(shift),
         "background_shift_mm": m.percentiles(shift_mm),
-        "transmittance": transmittance,
-        "color_fringe_arcmin": fringe if through.any() else None,
+        "transmittance": float(np.mean(seen.throughput)) if any_through else None,
+        "color_fringe_arcmin": fringe if any_through else None,
         "through_pixels": int(through_px.sum()),
         "background_layer": wall.name,
     }

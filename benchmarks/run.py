@@ -1,0 +1,107 @@
+"""cloakview benchmark: tracer throughput and frame times on this machine.
+
+Run: python benchmarks/run.py            (prints a table, then the same as JSON)
+Not a test: the numbers depend on the machine. Every speed is measured in this run,
+numpy and compiled tracer on the same rays, so the ratio is like for like.
+"""
+
+import dataclasses
+import json
+import os
+import platform
+import resource
+import time
+from importlib import resources
+
+import numpy as np
+
+from optics.cloak import LensChoice, design_cloak
+from optics.materials import MATERIALS
+from optics.trace import Rays, available_backends, trace
+from render.composite import TexturePyramids
+from render.mapper import SETUPS
+from render.scene import load_scene
+from render.views import _trace_view, render_viewer
+
+FRAMES = [("preview", (640, 360), 1, (587.56,)),
+          ("HD", (1280, 720), 2, (486.13, 587.56, 656.27)),
+          ("full HD", (1920, 1080), 2, (486.13, 587.56, 656.27))]
+
+
+def _best(fn, repeat=3):
+    best = float("inf")
+    for _ in range(repeat):
+        start = time.perf_counter()
+        fn()
+        best = min(best, time.perf_counter() - start)
+    return best
+
+
+def tracer_rates(count=2_000_000):
+    design = design_cloak(200, 75, LensChoice(False, MATERIALS["soda-lime"], "biconvex",
+                                              50.8, 50.8))
+    surfaces = design.system.surfaces
+    rng = np.random.default_rng(1)
+    targets = np.stack([rng.uniform(-8, 8, count), rng.uniform(-8, 8, count),
+                        np.zeros(count)], axis=1)
+    eye = np.array([[0.0, 0.0, -500.0]])
+    rays = Rays.from_vectors(np.broadcast_to(eye, (count, 3)), targets - eye, 587.56)
+    result = trace(rays, surfaces, backend="numpy")
+    # Steps: a ray that passed met every surface; a stopped one is counted at half.
+    steps = float(np.where(result.passed, len(surfaces), len(surfaces) / 2).sum())
+    rates = {}
+    for backend in available_backends():
+        trace(rays, surfaces, backend=backend)  # warm-up (compilation, caches)
+        rates[backend] = steps / _best(lambda b=backend: trace(rays, surfaces, backend=b))
+    return rates, count, len(surfaces)
+
+
+def frame_times():
+    scene = load_scene(str(resources.files("sample_scenes") / "gallery" / "scene.toml"))
+    pyramids = TexturePyramids(scene)
+    viewer = scene.viewers[0]
+    rows = []
+    for label, (width, height), ss, wavelengths in FRAMES:
+        v = dataclasses.replace(viewer, width_px=width, height_px=height)
+        _trace_view(scene, dataclasses.replace(v, width_px=32, height_px=18),
+                    SETUPS["cloaked"], wavelengths, pyramids, 1)
+        frame = _best(lambda v=v, ss=ss, wl=wavelengths: _trace_view(
+            scene, v, SETUPS["cloaked"], wl, pyramids, ss), repeat=3 if width < 1000 else 1)
+        timed = dataclasses.replace(scene, settings=dataclasses.replace(
+            scene.settings, wavelengths_nm=wavelengths))
+        start = time.perf_counter()
+        render_viewer(timed, v, pyramids, supersample=ss)
+        rows.append({"frame": label, "size": f"{width}x{height}", "supersample": ss,
+                     "wavelengths": len(wavelengths), "cloaked_frame_s": round(frame, 3),
+                     "all_views_and_metrics_s": round(time.perf_counter() - start, 3)})
+    return rows
+
+
+def main():
+    rates, count, surfaces = tracer_rates()
+    frames = frame_times()
+    ratio = rates["compiled"] / rates["numpy"] if "compiled" in rates else None
+    report = {
+        "date": time.strftime("%Y-%m-%d"),
+        "machine": f"{platform.machine()}, {os.cpu_count()} cores",
+        "tracer": {"rays": count, "surfaces": surfaces,
+                   "steps_per_s": {k: round(v) for k, v in rates.items()},
+                   "compiled_over_numpy": None if ratio is None else round(ratio, 2)},
+        "frames": frames,
+        "peak_memory_mb": round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024),
+    }
+    print(f"{'tracer path':<12}{'ray-surface steps/s':>22}")
+    for name, rate in rates.items():
+        print(f"{name:<12}{rate:>22,.0f}")
+    print(f"compiled / numpy: {report['tracer']['compiled_over_numpy']}")
+    print(f"\n{'frame':<9}{'size':>11}{'ss':>4}{'wl':>4}{'cloaked s':>11}{'all views s':>13}")
+    for row in frames:
+        print(f"{row['frame']:<9}{row['size']:>11}{row['supersample']:>4}"
+              f"{row['wavelengths']:>4}{row['cloaked_frame_s']:>11.3f}"
+              f"{row['all_views_and_metrics_s']:>13.3f}")
+    print(f"peak memory: {report['peak_memory_mb']} MB\n")
+    print(json.dumps(report, indent=2))
+
+
+if __name__ == "__main__":
+    main()

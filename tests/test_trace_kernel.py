@@ -1,0 +1,102 @@
+"""The compiled tracing kernel against the numpy reference path."""
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from optics import trace as trace_module
+from optics import trace_kernel
+from optics.lenses import ThickLens, ThinLens
+from optics.materials import MATERIALS
+from optics.surfaces import Housing, Probe
+from optics.system import LensSystem, PlacedLens
+from optics.trace import FATE_NAMES, Rays, trace
+
+pytestmark = pytest.mark.skipif("compiled" not in trace_module.available_backends(),
+                                reason="numba is not installed")
+
+
+def test_fate_codes_agree():
+    for code, name in enumerate(FATE_NAMES):
+        assert getattr(trace_kernel, name.upper()) == code
+
+
+@st.composite
+def scenes(draw):
+    lenses, z = [], 0.0
+    for i in range(draw(st.integers(1, 4))):
+        diameter = draw(st.floats(10, 60))
+        if draw(st.booleans()):
+            lens = ThinLens(draw(st.floats(20, 400)), diameter)
+        else:
+            material = MATERIALS[draw(st.sampled_from(sorted(MATERIALS)))]
+            r1 = draw(st.floats(35, 500)) * draw(st.sampled_from([1, -1]))
+            r2 = draw(st.sampled_from([math.inf, draw(st.floats(35, 500)) *
+                                       draw(st.sampled_from([1, -1]))]))
+            try:
+                lens = ThickLens(r1, r2, draw(st.floats(8, 20)), diameter, material)
+            except ValueError:
+                lens = ThinLens(100.0, diameter)
+        lenses.append(PlacedLens(lens, z, f"L{i}"))
+        z += lens.center_thickness_mm + draw(st.floats(5, 200))
+    system = LensSystem(tuple(lenses), coated=draw(st.booleans()))
+    probes = [Probe(draw(st.floats(-40, z + 300)), f"p{k}") for k in range(draw(st.integers(0, 3)))]
+    housing = None
+    if draw(st.booleans()):
+        tube = max(p.lens.diameter_mm for p in lenses) / 2 + draw(st.floats(0, 20))
+        housing = Housing(-20.0, draw(st.floats(3, tube)), tube + draw(st.floats(0, 80)),
+                          tube + draw(st.floats(0, 80)), tube, system.back_z_mm + 5)
+    return system, probes, housing
+
+
+@settings(max_examples=40, deadline=None)
+@given(scene=scenes(), seed=st.integers(0, 2**31))
+def test_compiled_matches_numpy(scene, seed):
+    system, probes, housing = scene
+    rng = np.random.default_rng(seed)
+    n = 3000
+    origins = np.stack([rng.normal(0, 30, n), rng.normal(0, 30, n), np.full(n, -600.0)], 1)
+    targets = np.stack([rng.uniform(-60, 60, n), rng.uniform(-60, 60, n), np.zeros(n)], 1)
+    directions = targets - origins
+    directions[:5, 2] *= -1  # a few rays start backward
+    wavelengths = rng.choice([486.13, 587.56, 656.27], n)
+    rays = Rays.from_vectors(origins, directions, wavelengths)
+    elements = [*system.surfaces, *probes]
+    a = trace(rays, elements, housing, backend="numpy")
+    b = trace(rays, elements, housing, backend="compiled")
+    np.testing.assert_array_equal(a.fate, b.fate)
+    np.testing.assert_array_equal(a.entered, b.entered)
+    for name in ("x", "y", "z", "dx", "dy", "dz", "throughput"):
+        np.testing.assert_allclose(getattr(b, name), getattr(a, name), rtol=0, atol=1e-9)
+    for probe in probes:
+        ca, cb = a.crossings[probe.name], b.crossings[probe.name]
+        np.testing.assert_array_equal(ca.reached, cb.reached)
+        np.testing.assert_allclose(cb.x, ca.x, rtol=0, atol=1e-9)
+        np.testing.assert_allclose(cb.y, ca.y, rtol=0, atol=1e-9)
+        np.testing.assert_allclose(cb.throughput, ca.throughput, rtol=0, atol=1e-12)
+
+
+def test_environment_switch(monkeypatch):
+    monkeypatch.setenv("CLOAKVIEW_TRACER", "numpy")
+    assert trace_module._choose_backend(None) == "numpy"
+    monkeypatch.setenv("CLOAKVIEW_TRACER", "fast")
+    with pytest.raises(ValueError, match="must be auto, numpy or compiled"):
+        trace_module._choose_backend(None)
+
+
+def test_renders_agree_between_paths(tmp_path, monkeypatch):
+    from scenes import RING, write_scene
+
+    from render.scene import load_scene
+    from render.views import render_viewer
+
+    scene = load_scene(write_scene(tmp_path, layers=RING, width=80, height=60))
+    images = {}
+    for backend in ("numpy", "compiled"):
+        monkeypatch.setenv("CLOAKVIEW_TRACER", backend)
+        images[backend] = render_viewer(scene, scene.viewers[0], views=("cloaked",)).images
+    diff = np.abs(images["numpy"]["cloaked"].astype(int) - images["compiled"]["cloaked"])
+    assert diff.max() <= 1
