@@ -94,22 +94,25 @@ def camera_rays(viewer: Viewer, placement: Placement, supersample: int,
     row_range : tuple of int, optional
         (first, stop) sample rows to make, for rendering in bands.
     """
-    directions = pixel_directions(viewer, supersample, row_range)
+    directions = placement.directions_to_device(pixel_directions(viewer, supersample,
+                                                                 row_range))
     rows, cols = directions.shape[:2]
     offsets = _pupil_offsets(viewer)
-    eye = np.asarray(viewer.eye_mm, float)
+    eye = placement.to_device(np.asarray(viewer.eye_mm, float))
     if len(offsets) == 1:
-        origins = np.broadcast_to(eye, (rows * cols, 3))
-        dirs = directions.reshape(-1, 3)
-    else:
-        forward, right, up = _basis(viewer)
-        focus = np.linalg.norm(np.asarray(viewer.look_at_mm, float) - eye)
-        # Every pupil sample aims at the pinhole ray's point on the plane of focus [2].
-        targets = eye + directions * (focus / (directions @ forward))[..., None]
-        starts = eye + offsets[:, 0, None] * right + offsets[:, 1, None] * up
-        origins = np.broadcast_to(starts[:, None, None, :], (len(offsets), rows, cols, 3))
-        dirs = targets[None] - origins
-        origins, dirs = origins.reshape(-1, 3), dirs.reshape(-1, 3)
-    rays = Rays.from_vectors(placement.to_device(origins),
-                             placement.directions_to_device(dirs), wavelength_nm)
+        count = rows * cols
+        d = directions.reshape(-1, 3)
+        rays = Rays(np.full(count, eye[0]), np.full(count, eye[1]), np.full(count, eye[2]),
+                    np.ascontiguousarray(d[:, 0]), np.ascontiguousarray(d[:, 1]),
+                    np.ascontiguousarray(d[:, 2]), np.full(count, float(wavelength_nm)),
+                    np.ones(count))
+        return rays, SampleGrid(1, rows, cols, supersample)
+    forward, right, up = (placement.directions_to_device(v) for v in _basis(viewer))
+    focus = np.linalg.norm(np.asarray(viewer.look_at_mm, float) - np.asarray(viewer.eye_mm))
+    # Every pupil sample aims at the pinhole ray's point on the plane of focus [2].
+    targets = eye + directions * (focus / (directions @ forward))[..., None]
+    starts = eye + offsets[:, 0, None] * right + offsets[:, 1, None] * up
+    origins = np.broadcast_to(starts[:, None, None, :], (len(offsets), rows, cols, 3))
+    rays = Rays.from_vectors(origins.reshape(-1, 3), (targets[None] - origins).reshape(-1, 3),
+                             wavelength_nm)
     return rays, SampleGrid(len(offsets), rows, cols, supersample)

@@ -25,7 +25,7 @@ import math
 import cv2
 import numpy as np
 
-from optics.trace import MOUNT, PANEL, PASSED, WALL
+from optics.trace import MOUNT, PANEL, PASSED
 from render.mapper import RayMap
 from render.scene import Scene
 
@@ -82,7 +82,7 @@ def _neighbour_span(values: np.ndarray, axis: int) -> np.ndarray:
     return span
 
 
-def _footprint_levels(u: np.ndarray, v: np.ndarray, grid_shape) -> np.ndarray:
+def footprint_levels(u: np.ndarray, v: np.ndarray, grid_shape) -> np.ndarray:
     """Mip level per ray from how far apart neighbouring samples land [texels] [2]."""
     footprint = None
     for values in (u.reshape(grid_shape), v.reshape(grid_shape)):
@@ -94,13 +94,17 @@ def _footprint_levels(u: np.ndarray, v: np.ndarray, grid_shape) -> np.ndarray:
 
 
 def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
-                 grid_shape) -> np.ndarray:
-    """Premultiplied RGBA (N, 4) of the rays at texture coordinates ``u``, ``v``."""
+                 level: np.ndarray) -> np.ndarray:
+    """Premultiplied RGBA (N, 4) of the rays at texture coordinates ``u``, ``v``.
+
+    ``level`` is each ray's mip level (see :func:`footprint_levels`), blended between
+    the two nearest pyramid levels [2].
+    """
     out = np.zeros((len(u), 4), np.float32)
     rows = np.flatnonzero(~np.isnan(u))
     if not len(rows):
         return out
-    level = np.minimum(_footprint_levels(u, v, grid_shape)[rows], len(pyramid) - 1)
+    level = np.minimum(level[rows], len(pyramid) - 1)
     top = int(math.ceil(level.max()))
     for k in range(top + 1):
         weight = 1.0 - np.abs(level - k)
@@ -118,47 +122,60 @@ def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
 
 
 def _housing_colour(scene: Scene, ray_map: RayMap) -> np.ndarray:
-    """Linear RGB (N, 3) of what each ray finally struck (room colour if nothing)."""
+    """Linear RGB (N, 3) of what each ray finally struck (room colour if nothing).
+
+    Each ray gets a palette entry (room, panel, tube, mount) and a shade factor:
+    Lambert shading of the tube's outside, light falling off with depth inside.
+    """
     r = ray_map.result
-    n = len(r.fate)
-    colour = np.broadcast_to(scene.settings.backdrop_rgb, (n, 3)).astype(np.float32).copy()
-    struck = r.fate != PASSED
-    if not struck.any():
-        return colour
+    palette = np.stack([scene.settings.backdrop_rgb, scene.panel_rgb, scene.tube_rgb,
+                        scene.tube_rgb * 1.25]).astype(np.float32)
+    entry = np.zeros(len(r.fate), np.intp)
+    shade = np.ones(len(r.fate), np.float32)
     panel = r.fate == PANEL
-    colour[panel] = scene.panel_rgb * (_AMBIENT + (1 - _AMBIENT) * max(0.0, -_LIGHT[2]))
-    outside_wall = (r.fate == WALL) & ~r.entered
-    if outside_wall.any():
-        radius = np.hypot(r.x[outside_wall], r.y[outside_wall])
-        lambert = np.clip((r.x[outside_wall] * _LIGHT[0] + r.y[outside_wall] * _LIGHT[1])
-                          / radius, 0.0, 1.0)
-        colour[outside_wall] = scene.tube_rgb * (_AMBIENT + (1 - _AMBIENT) * lambert)[:, None]
-    inside = struck & r.entered
-    if inside.any():
-        depth = np.maximum(r.z[inside] - scene.housing.panel_z_mm, 0.0)
-        fade = _AMBIENT * 0.6 + (1 - _AMBIENT * 0.6) * np.exp(-depth / _TUBE_DEPTH_MM)
-        base = np.where((r.fate[inside] == MOUNT)[:, None], scene.tube_rgb * 1.25,
-                        scene.tube_rgb)
-        colour[inside] = base * fade[:, None]
-    colour[struck] *= r.throughput[struck, None].astype(np.float32)
+    entry[panel] = 1
+    shade[panel] = _AMBIENT + (1 - _AMBIENT) * max(0.0, -_LIGHT[2])
+    struck = np.flatnonzero((r.fate != PASSED) & ~panel)
+    if struck.size:
+        inside = r.entered[struck]
+        outside = struck[~inside]
+        entry[outside] = 2
+        x, y = r.x[outside], r.y[outside]
+        lambert = np.clip((x * _LIGHT[0] + y * _LIGHT[1]) / np.hypot(x, y), 0.0, 1.0)
+        shade[outside] = _AMBIENT + (1 - _AMBIENT) * lambert
+        within = struck[inside]
+        entry[within] = np.where(r.fate[within] == MOUNT, 3, 2)
+        depth = np.maximum(r.z[within] - scene.housing.panel_z_mm, 0.0)
+        shade[within] = _AMBIENT * 0.6 + (1 - _AMBIENT * 0.6) * np.exp(-depth / _TUBE_DEPTH_MM)
+        shade[struck] *= r.throughput[struck]
+    colour = palette[entry]
+    colour *= shade[:, None]
     return colour
 
 
 def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
-                   grid_shape) -> tuple[np.ndarray, np.ndarray]:
-    """Linear RGB (N, 3) of every ray, and the weight (N,) of hidden objects in it [1].
+                   grid_shape=None, levels: dict | None = None):
+    """Linear RGB (N, 3) of every ray, hidden-object weight (N,) and mip levels used [1].
 
     Parameters
     ----------
-    grid_shape : tuple
-        (pupil, rows, columns) of the sample grid, for texture footprints.
+    grid_shape : tuple, optional
+        (pupil, rows, columns) of the sample grid: texture footprints come from
+        neighbouring samples.
+    levels : dict, optional
+        Mip level per ray for each layer name, instead of ``grid_shape`` (for a
+        subset of a grid whose levels are already known).
     """
     n = len(ray_map.result.fate)
     rgb = np.zeros((n, 3), np.float32)
     clear = np.ones(n, np.float32)
     hidden = np.zeros(n, np.float32)
+    used = {}
     for hit in ray_map.hits:  # z order: nearest first
-        rgba = sample_layer(pyramids.levels[hit.layer.name], hit.u, hit.v, grid_shape)
+        name = hit.layer.name
+        used[name] = levels[name] if levels is not None else footprint_levels(
+            hit.u, hit.v, grid_shape)
+        rgba = sample_layer(pyramids.levels[name], hit.u, hit.v, used[name])
         rgba *= np.float32(hit.layer.opacity)
         alpha = rgba[:, 3]
         tp = hit.throughput.astype(np.float32)
@@ -168,7 +185,7 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
             hidden += clear * alpha
         clear *= 1.0 - alpha
     rgb += clear[:, None] * _housing_colour(scene, ray_map)
-    return rgb, hidden
+    return rgb, hidden, used
 
 
 def channel_weights(wavelengths_nm) -> np.ndarray:

@@ -9,6 +9,7 @@ would be seen without lenses, and which parts of it vanish or still show).
 
 from __future__ import annotations
 
+import dataclasses
 import time
 from dataclasses import dataclass
 
@@ -17,6 +18,7 @@ import numpy as np
 
 from optics.materials import D_LINE_NM
 from optics.surfaces import Refracting
+from optics.trace import Rays
 from render import metrics as m
 from render.camera import camera_rays
 from render.composite import (
@@ -83,13 +85,22 @@ def _bands(viewer: Viewer, supersample: int):
     return [(r, min(r + step, rows)) for r in range(0, rows, step)]
 
 
+def _subset(rays: Rays, rows: np.ndarray) -> Rays:
+    return Rays(*(getattr(rays, f.name)[rows] for f in dataclasses.fields(Rays)))
+
+
 def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample) -> TracedView:
-    """Trace and composite one view band by band; keep what the metrics need."""
+    """Trace and composite one view band by band; keep what the metrics need.
+
+    With real lenses, the design wavelength is traced first for every ray; the other
+    wavelengths re-trace only the rays that entered the device (the rest meet no
+    glass, so their colour does not depend on wavelength) and reuse its mip levels.
+    """
     weights = channel_weights(wavelengths)
     dispersive = setup.lenses and any(isinstance(s, Refracting) for s in scene.system.surfaces)
-    trace_wavelengths = wavelengths if dispersive else (_design_wavelength(wavelengths),)
-    design = _design_wavelength(trace_wavelengths)
-    kept = {design, min(trace_wavelengths), max(trace_wavelengths)}
+    design = _design_wavelength(wavelengths)
+    order = sorted(wavelengths if dispersive else (design,), key=lambda w: w != design)
+    kept = {design, min(order), max(order)}
     wall = _front_background(scene).name
     h, w = viewer.height_px, viewer.width_px
     image = np.zeros((h, w, 3), np.float32)
@@ -97,28 +108,36 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample) -> Tra
     parts = {wl: [] for wl in kept}
     offset = 0
     for r0, r1 in _bands(viewer, supersample):
-        rays, grid = camera_rays(viewer, scene.placement, supersample, trace_wavelengths[0],
-                                 (r0, r1))
+        rays, grid = camera_rays(viewer, scene.placement, supersample, design, (r0, r1))
         shape = (grid.pupil, grid.rows, grid.columns)
         rows = slice(r0 // supersample, r1 // supersample)
-        for k, wl in enumerate(trace_wavelengths):
-            rays.wavelength_nm[:] = wl  # the same eye rays, traced at each wavelength
-            ray_map = map_rays(scene, rays, setup)
-            rgb, hidden = composite_rays(scene, ray_map, pyramids, shape)
-            rgb = resolve_samples(rgb, shape, supersample)
-            image[rows] += rgb * weights[k] if dispersive else rgb
-            through = ray_map.through_device
+        ray_map = map_rays(scene, rays, setup)
+        base, hidden, levels = composite_rays(scene, ray_map, pyramids, shape)
+        entered = np.flatnonzero(ray_map.result.entered)
+        cover["hidden"][rows] = resolve_samples(hidden, shape, supersample)[..., 0]
+        for name, values in (("entered", ray_map.result.entered),
+                             ("through", ray_map.through_device)):
+            cover[name][rows] = resolve_samples(values.astype(np.float32), shape,
+                                                supersample)[..., 0]
+        for wl in order:
             if wl == design:
-                cover["hidden"][rows] = resolve_samples(hidden, shape, supersample)[..., 0]
-                for name, values in (("entered", ray_map.result.entered), ("through", through)):
-                    cover[name][rows] = resolve_samples(values.astype(np.float32), shape,
-                                                        supersample)[..., 0]
+                rgb, sub_map, ids = base, ray_map, np.arange(len(rays))
+            else:
+                sub = _subset(rays, entered)
+                sub.wavelength_nm[:] = wl
+                sub_map = map_rays(scene, sub, setup)
+                sub_rgb, _, _ = composite_rays(scene, sub_map, pyramids, levels={
+                    name: level[entered] for name, level in levels.items()})
+                rgb = base.copy()
+                rgb[entered] = sub_rgb
+                ids = entered
+            weight = weights[list(wavelengths).index(wl)] if dispersive else 1.0
+            image[rows] += resolve_samples(rgb, shape, supersample) * weight
             if wl in kept:
-                crossing = ray_map.result.crossings[wall]
-                keep = np.flatnonzero(through) if setup.lenses else slice(None)
-                parts[wl].append((np.arange(offset, offset + len(through))[keep],
-                                  ray_map.result.throughput[keep], crossing.x[keep],
-                                  crossing.y[keep]))
+                through = np.flatnonzero(sub_map.through_device) if setup.lenses else slice(None)
+                crossing = sub_map.result.crossings[wall]
+                parts[wl].append((offset + ids[through], sub_map.result.throughput[through],
+                                  crossing.x[through], crossing.y[through]))
         offset += grid.count
     records = {wl: RayRecord(*(np.concatenate(column) for column in zip(*chunks,
                                                                         strict=True)))
