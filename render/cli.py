@@ -19,8 +19,10 @@ from optics.errors import InputError, require_finite_positive
 from optics.lenses import SHAPES
 from optics.materials import MATERIALS, material_by_name
 from render.cautions import cautions_text
+from render.cli_motion import add_commands
 from render.composite import TexturePyramids
 from render.design_summary import summarise, table
+from render.options import parse_size, parse_triple
 from render.outputs import write_summary, write_viewer
 from render.progress import Progress
 from render.scene import Viewer, load_scene
@@ -67,31 +69,11 @@ def _design(args) -> int:
     return 0
 
 
-def _triple(text: str, option: str) -> tuple[float, float, float]:
-    try:
-        values = tuple(float(v) for v in text.split(","))
-    except ValueError:
-        values = ()
-    if len(values) != 3 or not all(v == v and abs(v) != float("inf") for v in values):
-        raise InputError(option, text, "must be three finite numbers in mm, like 0,1250,-1500")
-    return values
-
-
-def _size(text: str) -> tuple[int, int]:
-    try:
-        width, height = (int(v) for v in text.lower().split("x"))
-    except ValueError:
-        raise InputError("--size", text, "must be WIDTHxHEIGHT in pixels, like 640x360") from None
-    if not (16 <= width <= 8192 and 16 <= height <= 8192):
-        raise InputError("--size", text, "each side must be 16 to 8192 pixels")
-    return width, height
-
-
 def _viewers(scene, args) -> list[Viewer]:
     if args.eye:
         base = scene.viewers[0]
-        eye = _triple(args.eye, "--eye")
-        look = _triple(args.look_at, "--look-at") if args.look_at else base.look_at_mm
+        eye = parse_triple(args.eye, "--eye")
+        look = parse_triple(args.look_at, "--look-at") if args.look_at else base.look_at_mm
         chosen = [dataclasses.replace(base, name="custom", eye_mm=eye, look_at_mm=look)]
         device_eye = scene.placement.to_device(eye)
         if device_eye[2] >= scene.housing.panel_z_mm:
@@ -102,7 +84,7 @@ def _viewers(scene, args) -> list[Viewer]:
     else:
         chosen = list(scene.viewers)
     if args.size:
-        width, height = _size(args.size)
+        width, height = parse_size(args.size)
         chosen = [dataclasses.replace(v, width_px=width, height_px=height) for v in chosen]
     return chosen
 
@@ -252,6 +234,7 @@ def build_parser() -> argparse.ArgumentParser:
     demo.add_argument("--out", default="cloakview-demo", metavar="DIR",
                       help="output folder (default cloakview-demo)")
     demo.set_defaults(run=_demo, ideal=False, viewer=None, eye=None, size=None)
+    add_commands(commands)
     return parser
 
 

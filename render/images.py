@@ -9,6 +9,8 @@ References
 
 from __future__ import annotations
 
+import csv
+import io
 import json
 import os
 import tempfile
@@ -92,13 +94,15 @@ def read_texture(path: Path, key: str, source: str) -> np.ndarray:
     return np.ascontiguousarray(np.concatenate([rgb * alpha, alpha], axis=-1))
 
 
-def _atomic(path: Path, write) -> None:
+def atomic_write(path: Path, write) -> None:
+    """Call ``write(temp_path)`` then rename the temporary file onto ``path``."""
     path.parent.mkdir(parents=True, exist_ok=True)
     handle, temp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix,
                                     dir=path.parent)
     os.close(handle)
     try:
         write(temp)
+        os.chmod(temp, 0o644)  # mkstemp makes 0600; outputs are for sharing
         os.replace(temp, path)
     except BaseException:
         if os.path.exists(temp):
@@ -108,7 +112,7 @@ def _atomic(path: Path, write) -> None:
 
 def write_png(path: Path, image_uint8: np.ndarray) -> None:
     """Write an 8-bit image as PNG via a temporary file and a rename."""
-    _atomic(Path(path), lambda temp: iio.imwrite(temp, image_uint8, extension=".png"))
+    atomic_write(Path(path), lambda temp: iio.imwrite(temp, image_uint8, extension=".png"))
 
 
 def write_json(path: Path, data) -> None:
@@ -117,7 +121,7 @@ def write_json(path: Path, data) -> None:
         with open(temp, "w", encoding="utf-8") as handle:
             json.dump(data, handle, indent=2, allow_nan=False)
             handle.write("\n")
-    _atomic(Path(path), write)
+    atomic_write(Path(path), write)
 
 
 def write_text(path: Path, text: str) -> None:
@@ -125,4 +129,14 @@ def write_text(path: Path, text: str) -> None:
     def write(temp):
         with open(temp, "w", encoding="utf-8") as handle:
             handle.write(text)
-    _atomic(Path(path), write)
+    atomic_write(Path(path), write)
+
+
+def write_csv(path: Path, rows: list[dict], columns=None) -> None:
+    """Rows of dicts as CSV (columns: given, else the first row's keys), written safely."""
+    buffer = io.StringIO()
+    writer = csv.DictWriter(buffer, fieldnames=list(columns or rows[0]), lineterminator="\n",
+                            extrasaction="ignore")
+    writer.writeheader()
+    writer.writerows(rows)
+    write_text(path, buffer.getvalue())

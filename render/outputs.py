@@ -2,14 +2,12 @@
 
 from __future__ import annotations
 
-import csv
 import hashlib
-import io
 import platform
 import time
 from pathlib import Path
 
-from render.images import write_json, write_png, write_text
+from render.images import write_csv, write_json, write_png
 
 VERSION = "0.1.0"
 
@@ -46,12 +44,7 @@ def write_summary(out_dir: Path, renders, scene_path: Path, options: dict,
     out_dir = Path(out_dir)
     table = [r.metrics for r in renders]
     write_json(out_dir / "metrics.json", table)
-    buffer = io.StringIO()
-    writer = csv.DictWriter(buffer, fieldnames=_CSV_COLUMNS, lineterminator="\n")
-    writer.writeheader()
-    for metrics in table:
-        writer.writerow(_csv_row(metrics))
-    write_text(out_dir / "metrics.csv", buffer.getvalue())
+    write_csv(out_dir / "metrics.csv", [_csv_row(m) for m in table], _CSV_COLUMNS)
     digest = hashlib.sha256(Path(scene_path).read_bytes()).hexdigest()
     write_json(out_dir / "run.json", {
         "program": "cloakview", "version": VERSION, "scene": str(scene_path),

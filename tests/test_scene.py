@@ -71,7 +71,7 @@ def test_rule_messages(tmp_path, old, new, match):
 
 
 @pytest.mark.parametrize("layer_text, match", [
-    (RING.replace("width_mm = 44", "width_mm = 60"), r"beyond the tube radius 33.0 mm"),
+    (RING.replace("width_mm = 44", "width_mm = 80"), r"beyond the tube radius 33.0 mm"),
     (RING.replace("z_mm = 222", "z_mm = -50"), r"a hidden object must be inside the device"),
     (RING + RING, r"layer names must be unique"),
     (RING.replace('role = "hidden"', 'role = "foreground"'), r"must stand in front of the panel"),

@@ -1,0 +1,269 @@
+"""The cloaked zone: the part of the device interior that no ray reaching the eyes crosses.
+
+For a set of eye points, dense fans of rays are traced from each eye through the
+viewing hole (the tracer records where they cross closely spaced probe planes). A
+point at radius r and axial position z is *seen* if some ray crosses that plane at
+radius r; everything inside the tube and outside the glass that is never crossed is
+hidden from every one of those eyes. Between neighbouring rays of a fan the family of
+rays in between covers the radii in between (continuity), so the map marks those
+intervals too. The zone is a set of rings around the axis: rotating an object about
+the axis does not change whether it is hidden.
+
+References
+----------
+.. [1] J. S. Choi and J. C. Howell, "Paraxial ray optics cloaking", Optics Express
+   22(24), 29465-29478 (2014): ring-shaped cloaked region, axis not cloaked.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import cv2
+import numpy as np
+
+from optics.surfaces import Probe
+from optics.trace import Rays, trace
+from render.scene import Scene, _lens_glass_extent
+
+RADIAL_STEP_MM = 0.5
+AXIAL_STEP_MM = 2.0
+
+
+@dataclass
+class ZoneMap:
+    """Seen/hidden map of the interior on an (axial, radial) grid.
+
+    Attributes
+    ----------
+    z_mm : ndarray (Z,)
+        Probe-plane positions [mm].
+    r_mm : ndarray (R,)
+        Radial bin centres [mm].
+    seen : ndarray of bool (Z, R)
+        Crossed by at least one ray reaching an eye.
+    glass : ndarray of bool (Z,)
+        Planes that cut a lens.
+    fans : list of ndarray
+        A few meridional rays per eye for drawing: (K, Z) radius with sign, NaN after
+        the ray stopped.
+    """
+
+    z_mm: np.ndarray
+    r_mm: np.ndarray
+    seen: np.ndarray
+    glass: np.ndarray
+    fans: list
+
+    @property
+    def hidden(self) -> np.ndarray:
+        """Inside the tube, outside the glass, and never crossed."""
+        return ~self.seen & ~self.glass[:, None]
+
+
+def _fan_targets(hole_radius: float, radial: int, azimuthal: int) -> np.ndarray:
+    r = np.linspace(0.0, hole_radius, radial)
+    a = np.linspace(0.0, 2 * np.pi, azimuthal, endpoint=False)
+    return np.stack([np.outer(np.cos(a), r), np.outer(np.sin(a), r)], axis=-1)  # (A, R, 2)
+
+
+def _mark(seen: np.ndarray, radius: np.ndarray, step: float) -> None:
+    """Mark the radial bins (1-D ``seen``) covered by a fan of rays (azimuth x radius).
+
+    The gaps between neighbouring rays of the fan count as covered too.
+    """
+    bins = seen.shape[0]
+    for axis in (0, 1):
+        a = radius
+        b = np.roll(radius, -1, axis=axis)
+        if axis == 1:
+            b[:, -1] = a[:, -1]
+        lo = np.fmin(a, b)
+        hi = np.fmax(a, b)
+        ok = ~np.isnan(lo)
+        first = np.clip((lo[ok] / step).astype(int), 0, bins - 1)
+        last = np.clip((hi[ok] / step).astype(int), 0, bins - 1)
+        # Mark [first, last] with a difference array, then a cumulative sum.
+        diff = np.zeros(bins + 1, np.int64)
+        np.add.at(diff, first, 1)
+        np.add.at(diff, last + 1, -1)
+        seen |= np.cumsum(diff[:-1]) > 0
+
+
+def cloaked_zone(scene: Scene, eyes_room: np.ndarray, wavelength_nm: float = 587.56,
+                 radial: int = 161, azimuthal: int = 48) -> ZoneMap:
+    """Trace fans from every eye point (room frame, mm) and map the hidden interior."""
+    housing = scene.housing
+    z = np.arange(housing.panel_z_mm + AXIAL_STEP_MM / 2, housing.tube_end_mm, AXIAL_STEP_MM)
+    r = np.arange(RADIAL_STEP_MM / 2, housing.tube_radius_mm, RADIAL_STEP_MM)
+    seen = np.zeros((len(z), len(r)), bool)
+    glass = np.zeros(len(z), bool)
+    for placed in scene.system.lenses:
+        lo, hi = _lens_glass_extent(placed)
+        glass |= (z >= lo) & (z <= hi)
+    probes = [Probe(float(zz), f"z{i}") for i, zz in enumerate(z)]
+    targets = _fan_targets(housing.hole_radius_mm * 0.999, radial, azimuthal)
+    fans = []
+    for eye_room in np.atleast_2d(eyes_room):
+        eye = scene.placement.to_device(eye_room)
+        points = np.concatenate([targets, np.full(targets.shape[:2] + (1,),
+                                                  housing.panel_z_mm)], axis=-1)
+        directions = points.reshape(-1, 3) - eye
+        rays = Rays.from_vectors(np.broadcast_to(eye, directions.shape), directions,
+                                 wavelength_nm)
+        result = trace(rays, [*scene.system.surfaces, *probes], housing)
+        shape = targets.shape[:2]
+        meridional = []
+        for i, probe in enumerate(probes):
+            crossing = result.crossings[probe.name]
+            radius = np.hypot(crossing.x, crossing.y).reshape(shape)
+            radius[~result.entered.reshape(shape)] = np.nan
+            _mark(seen[i], radius, RADIAL_STEP_MM)
+            # Signed radius of the rays in the fan's first and opposite azimuths, to draw.
+            pick = np.concatenate([crossing.x.reshape(shape)[0, ::10],
+                                   crossing.x.reshape(shape)[azimuthal // 2, ::10]])
+            meridional.append(pick)
+        fans.append(np.array(meridional).T)
+    return ZoneMap(z, r, seen, glass, fans)
+
+
+@dataclass
+class Ring:
+    """A hidden ring: radii [mm] and axial span [mm]."""
+
+    gap: str
+    inner_mm: float
+    outer_mm: float
+    z_start_mm: float
+    z_end_mm: float
+
+    @property
+    def height_mm(self) -> float:
+        """Radial thickness: the tallest object that fits at one side of the axis."""
+        return self.outer_mm - self.inner_mm
+
+    @property
+    def length_mm(self) -> float:
+        """Axial length."""
+        return self.z_end_mm - self.z_start_mm
+
+
+def _largest_rectangle(mask: np.ndarray) -> tuple[int, int, int, int] | None:
+    """Largest all-True axis-aligned rectangle (row0, row1, col0, col1), exclusive ends."""
+    rows, cols = mask.shape
+    heights = np.zeros(cols, int)
+    best, best_area = None, 0
+    for i in range(rows):
+        heights = np.where(mask[i], heights + 1, 0)
+        stack: list[int] = []
+        for j in range(cols + 1):
+            h = heights[j] if j < cols else 0
+            while stack and heights[stack[-1]] >= h:
+                k = stack.pop()
+                left = stack[-1] + 1 if stack else 0
+                area = heights[k] * (j - left)
+                if area > best_area:
+                    best_area, best = area, (i - heights[k] + 1, i + 1, left, j)
+            stack.append(j)
+    return best
+
+
+def largest_rings(zone: ZoneMap, scene: Scene) -> list[Ring]:
+    """The largest hidden ring (by cross-section area) in each air gap between lenses."""
+    extents = [_lens_glass_extent(p) for p in scene.system.lenses]
+    edges = [(a[1], b[0]) for a, b in zip(extents, extents[1:], strict=False)]
+    names = [f"L{i + 1}-L{i + 2}" for i in range(len(extents) - 1)]
+    rings = []
+    hidden = zone.hidden
+    for name, (lo, hi) in zip(names, edges, strict=True):
+        rows = np.flatnonzero((zone.z_mm > lo) & (zone.z_mm < hi))
+        if rows.size == 0:
+            continue
+        found = _largest_rectangle(hidden[rows])
+        if found is None:
+            continue
+        r0, r1, c0, c1 = found
+        rings.append(Ring(name, c0 * RADIAL_STEP_MM, c1 * RADIAL_STEP_MM,
+                          float(zone.z_mm[rows[r0]] - AXIAL_STEP_MM / 2),
+                          float(zone.z_mm[rows[r1 - 1]] + AXIAL_STEP_MM / 2)))
+    return rings
+
+
+def zone_image(zone: ZoneMap, scene: Scene, rings: list[Ring], title: str) -> np.ndarray:
+    """Side elevation: tube, lenses, ray fans, hidden zone shaded, largest rings marked."""
+    width, margin = 960, 40
+    z0, z1 = scene.housing.panel_z_mm, scene.housing.tube_end_mm
+    sz = (width - 2 * margin) / (z1 - z0)
+    radius = scene.housing.tube_radius_mm
+    sr = 150.0 / radius
+    mid = 90 + 150
+    image = np.full((mid + 150 + 110, width, 3), 250, np.uint8)
+
+    def px(z, r):
+        return int(margin + (z - z0) * sz), int(mid - r * sr)
+
+    hidden = zone.hidden
+    for i, zz in enumerate(zone.z_mm):
+        for sign in (1, -1):
+            col = hidden[i]
+            if not col.any():
+                continue
+            x0 = px(zz - AXIAL_STEP_MM / 2, 0)[0]
+            x1 = max(px(zz + AXIAL_STEP_MM / 2, 0)[0], x0 + 1)
+            ys = np.flatnonzero(col)
+            for start, stop in _runs(ys):
+                ya = px(0, sign * zone.r_mm[start] - sign * RADIAL_STEP_MM / 2)[1]
+                yb = px(0, sign * zone.r_mm[stop] + sign * RADIAL_STEP_MM / 2)[1]
+                cv2.rectangle(image, (x0, min(ya, yb)), (x1, max(ya, yb)), (150, 215, 205), -1)
+    overlay = image.copy()
+    for fan in zone.fans:
+        for ray in fan:
+            pts = [px(zz, rr) for zz, rr in zip(zone.z_mm, ray, strict=True) if rr == rr]
+            if len(pts) > 1:
+                cv2.polylines(overlay, [np.array(pts, np.int32)], False, (230, 120, 40), 1,
+                              cv2.LINE_AA)
+    image = cv2.addWeighted(overlay, 0.55, image, 0.45, 0)
+    for placed in scene.system.lenses:
+        lo, hi = _lens_glass_extent(placed)
+        half = placed.lens.diameter_mm / 2
+        cv2.rectangle(image, px(lo, half), px(max(hi, lo + 1), -half), (110, 170, 230), -1)
+        cv2.rectangle(image, px(lo, half), px(max(hi, lo + 1), -half), (40, 80, 140), 1)
+        cv2.putText(image, placed.label.split()[0], (px(lo, 0)[0] - 8, mid - 160),
+                    cv2.FONT_HERSHEY_SIMPLEX, 0.4, (40, 40, 40), 1, cv2.LINE_AA)
+    for sign in (1, -1):
+        cv2.line(image, px(z0, sign * radius), px(z1, sign * radius), (60, 60, 60), 2)
+    cv2.line(image, px(z0, 0), px(z1, 0), (90, 90, 200), 1, cv2.LINE_AA)
+    for ring in rings:
+        for sign in (1, -1):
+            cv2.rectangle(image, px(ring.z_start_mm, sign * ring.inner_mm),
+                          px(ring.z_end_mm, sign * ring.outer_mm), (20, 110, 100), 2)
+    bar = 100.0 * sz
+    cv2.line(image, (width - margin - int(bar), image.shape[0] - 20),
+             (width - margin, image.shape[0] - 20), (0, 0, 0), 2)
+    cv2.putText(image, "100 mm", (width - margin - int(bar), image.shape[0] - 26),
+                cv2.FONT_HERSHEY_SIMPLEX, 0.4, (0, 0, 0), 1, cv2.LINE_AA)
+    for row, text in enumerate((
+            title,
+            f"side view, axial scale to scale, radial scale stretched {sr / sz:.0f}x; "
+            "teal: hidden from these eyes; orange: rays that reach the eye",
+            "boxes: largest hidden ring in each gap (see zone.json)")):
+        cv2.putText(image, text, (12, 22 + 20 * row), cv2.FONT_HERSHEY_SIMPLEX,
+                    0.55 if row == 0 else 0.42, (30, 30, 30), 1, cv2.LINE_AA)
+    y = mid + 175
+    for ring in rings:
+        cv2.putText(image, f"{ring.gap}: ring {ring.inner_mm:.1f}-{ring.outer_mm:.1f} mm from "
+                    f"the axis over {ring.z_start_mm:.0f}-{ring.z_end_mm:.0f} mm "
+                    f"(object up to {ring.height_mm:.0f} x {ring.length_mm:.0f} mm)",
+                    (12, y), cv2.FONT_HERSHEY_SIMPLEX, 0.42, (30, 30, 30), 1, cv2.LINE_AA)
+        y += 18
+    return image
+
+
+def _runs(indices: np.ndarray):
+    """Consecutive runs (start, stop inclusive) in sorted integer indices."""
+    if indices.size == 0:
+        return []
+    breaks = np.flatnonzero(np.diff(indices) > 1)
+    starts = np.concatenate([[indices[0]], indices[breaks + 1]])
+    stops = np.concatenate([indices[breaks], [indices[-1]]])
+    return list(zip(starts, stops, strict=True))
