@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import multiprocessing
 import os
 from concurrent.futures import ProcessPoolExecutor
 from pathlib import Path
@@ -78,8 +79,11 @@ def run_jobs(fn, jobs: list[dict], folder: Path, setup, setup_args=(), workers=N
         for key, job in todo:
             results[key] = _store(folder, key, fn(state, job), progress)
     elif todo:
+        # "spawn": a forked child of a process whose compiled kernels already ran
+        # threads is not safe; fresh interpreters are.
         with ProcessPoolExecutor(max_workers=min(workers, len(todo)), initializer=_init,
-                                 initargs=(setup, setup_args)) as pool:
+                                 initargs=(setup, setup_args),
+                                 mp_context=multiprocessing.get_context("spawn")) as pool:
             futures = pool.map(_run_one, [(fn, job) for _, job in todo],
                                chunksize=max(1, len(todo) // (8 * workers)))
             for (key, _), result in zip(todo, futures, strict=True):

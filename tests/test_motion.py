@@ -1,0 +1,193 @@
+"""Visitors in motion: videos, both eyes, sight-line maps, the cloaked zone, resumable sweeps."""
+
+import csv
+import dataclasses
+import json
+
+import imageio.v3 as iio
+import imageio_ffmpeg
+import numpy as np
+import pytest
+from scenes import RING, write_scene
+
+from render import sightlines as sl
+from render import walk
+from render import zone as zn
+from render.cli import main
+from render.scene import load_scene
+from render.sweeps import run_jobs
+from render.views import render_viewer
+
+IDEAL = "ideal = true"
+
+
+def test_walk_video_has_one_frame_per_point(tmp_path, capsys):
+    scene = write_scene(tmp_path / "s", layers=RING, render_extra=IDEAL)
+    out = tmp_path / "out"
+    assert main(["walk", str(scene), "--frames", "5", "--size", "48x32", "--distance", "600",
+                 "--span", "80", "--fps", "10", "--workers", "2", "--out", str(out),
+                 "--json"]) == 0
+    summary = json.loads(capsys.readouterr().out)
+    assert summary["frames"] == 5
+    rows = list(csv.DictReader((out / "walk.csv").read_text().splitlines()))
+    assert len(rows) == 5
+    gif = iio.imread(out / "walk.gif")
+    assert gif.shape[0] == 5 and gif.shape[2] == 48  # at 10 fps the GIF keeps every frame
+    frames, _ = imageio_ffmpeg.count_frames_and_secs(str(out / "walk.mp4"))
+    assert frames == 5
+    first = iio.imread(out / "frames" / "frame_00000.png")
+    assert first.shape[1] == 48 and first.shape[0] > 32  # the caption strip sits below
+    xs = [float(r["eye_x_mm"]) for r in rows]
+    assert xs == pytest.approx(np.linspace(-40, 40, 5))
+
+
+def test_walk_from_csv_path_and_bad_rows(tmp_path, capsys):
+    scene = write_scene(tmp_path / "s", layers=RING)
+    path = tmp_path / "path.csv"
+    path.write_text("x_mm,y_mm,z_mm\n0,1150,-600\n10,1150,-700\n")
+    out = tmp_path / "out"
+    assert main(["walk", str(scene), "--path", str(path), "--size", "32x24", "--workers", "1",
+                 "--fps", "10", "--out", str(out)]) == 0
+    assert iio.imread(out / "walk.gif").shape[0] == 2
+    path.write_text("x_mm,y_mm,z_mm\n0,1150,-600\n0,tall,-700\n")
+    assert main(["walk", str(scene), "--path", str(path), "--out", str(out)]) == 2
+    assert "path.csv:3" in capsys.readouterr().err
+
+
+def test_anaglyph_takes_red_from_left_and_cyan_from_right():
+    left = np.zeros((2, 2, 3), np.uint8)
+    left[..., 0] = 200
+    right = np.zeros((2, 2, 3), np.uint8)
+    right[..., 1:] = 90
+    out = walk.anaglyph(left, right)
+    assert (out[..., 0] == 200).all() and (out[..., 1:] == 90).all()
+
+
+def test_eye_pair_is_ipd_apart_and_fixates_the_same_point(tmp_path):
+    scene = load_scene(write_scene(tmp_path))
+    left, right = walk.eye_pair(scene.viewers[0], 63.0)
+    # Dodgson (2004): adult mean interpupillary distance about 63 mm.
+    assert np.linalg.norm(np.subtract(right.eye_mm, left.eye_mm)) == pytest.approx(63.0)
+    assert left.eye_mm[0] < right.eye_mm[0]  # left eye on the visitor's left (x to the right)
+    assert left.look_at_mm == right.look_at_mm
+
+
+def test_eyes_command_says_when_one_eye_is_off(tmp_path, capsys):
+    scene = write_scene(tmp_path / "s", layers=RING)
+    out = tmp_path / "out"
+    assert main(["eyes", str(scene), "--size", "64x48", "--out", str(out), "--json"]) == 0
+    result = json.loads(capsys.readouterr().out)
+    assert "both_eyes" in result and result["ipd_mm"] == 63.0
+    for name in ("left", "right", "pair", "anaglyph"):
+        assert (out / "on-axis" / f"{name}.png").is_file()
+    pair = iio.imread(out / "on-axis" / "pair.png")
+    assert pair.shape[:2] == (48, 128)
+    half_off = {"through_pixels": 0}
+    sees = {"through_pixels": 500}
+    assert "Only the left eye" in walk.both_eyes_statement(sees, half_off)
+    assert "Both eyes" in walk.both_eyes_statement(sees, sees)
+
+
+def test_sightline_map_of_symmetric_scene_is_symmetric(tmp_path):
+    path = str(write_scene(tmp_path, layers=RING, render_extra=IDEAL))
+    xs = sl.grid(-160, 160, 20, "x")
+    ds = [590.0, 800.0]
+    jobs = sl.floor_jobs(xs, ds, [1150.0], (48, 32))
+    rows = run_jobs(sl.measure_point, jobs, tmp_path / "jobs", sl.setup_worker,
+                    (path, False, None), workers=1)
+    for d in ds:
+        classes = [r["class"] for r in rows if r["d"] == d]
+        assert classes == classes[::-1]
+        hidden = [r["hidden_fraction"] for r in rows if r["d"] == d]
+        for a, b in zip(hidden, hidden[::-1], strict=True):
+            if a is not None and b is not None:  # None: under a pixel of object in view
+                assert a == pytest.approx(b, abs=0.02)
+    on_axis = next(r for r in rows if r["x"] == 0 and r["d"] == 590.0)
+    far = [r for r in rows if abs(r["x"]) == 160]
+    assert on_axis["class"] == "works"
+    assert all(r["class"] != "works" for r in far)
+
+
+def test_sweep_resumes_with_the_same_results(tmp_path):
+    path = str(write_scene(tmp_path, layers=RING))
+    jobs = sl.floor_jobs([-20.0, 0.0, 20.0], [600.0, 700.0], [1150.0], (32, 24))
+    whole = run_jobs(sl.measure_point, jobs, tmp_path / "a", sl.setup_worker,
+                     (path, False, None), workers=1)
+    run_jobs(sl.measure_point, jobs[:3], tmp_path / "b", sl.setup_worker, (path, False, None),
+             workers=1)  # "interrupted" after three jobs
+    done = sorted((tmp_path / "b").glob("*.json"))
+    assert len(done) == 3
+    stamps = {p: p.stat().st_mtime_ns for p in done}
+    resumed = run_jobs(sl.measure_point, jobs, tmp_path / "b", sl.setup_worker,
+                       (path, False, None), workers=2)
+    assert resumed == whole
+    assert all(p.stat().st_mtime_ns == t for p, t in stamps.items())  # not redone
+
+
+def _zone_scene(tmp_path, layers=""):
+    return load_scene(write_scene(tmp_path, layers=layers, render_extra=IDEAL))
+
+
+def test_axis_is_never_in_the_cloaked_zone(tmp_path):
+    # Choi and Howell (2014): for a viewer on the axis the cloaked region is ring-shaped
+    # and the axis itself is not cloaked, at any viewing distance.
+    scene = _zone_scene(tmp_path)
+    eye = np.array(scene.viewers[0].eye_mm)
+    for back in (0.0, 300.0, 1500.0):
+        zone = zn.cloaked_zone(scene, eye - [0, 0, back], radial=81, azimuthal=24)
+        assert not zone.hidden[:, 0].any()
+        assert zone.hidden.any()
+
+
+def _ring_png(path, inner_mm, outer_mm, width_mm):
+    size = 400
+    yy, xx = np.mgrid[0:size, 0:size]
+    r = np.hypot(xx - (size - 1) / 2, yy - (size - 1) / 2) * width_mm / size
+    rgba = np.zeros((size, size, 4), np.uint8)
+    rgba[(r >= inner_mm) & (r <= outer_mm)] = (40, 200, 60, 255)
+    iio.imwrite(path, rgba)
+
+
+def test_zone_agrees_with_renders(tmp_path):
+    scene = _zone_scene(tmp_path / "z")
+    zone = zn.cloaked_zone(scene, np.array(scene.viewers[0].eye_mm))
+    ring = next(r for r in zn.largest_rings(zone, scene) if r.gap == "L1-L2")
+    assert ring.inner_mm > 0 and ring.length_mm > 20
+    z_mid = (ring.z_start_mm + ring.z_end_mm) / 2
+    width = 2 * scene.housing.tube_radius_mm - 1
+    inside = (ring.inner_mm + 1.0, min(ring.outer_mm, scene.housing.tube_radius_mm) - 1.5)
+    # "Just outside": the same ring reaching 3 mm into the crossed region at that plane.
+    row = zone.hidden[np.argmin(np.abs(zone.z_mm - z_mid))]
+    boundary = zone.r_mm[np.argmax(row)]  # first hidden radius there
+    outside = (max(boundary - 3.0, 0.5), inside[1])
+    results = {}
+    for name, (r_in, r_out) in (("inside", inside), ("outside", outside)):
+        folder = tmp_path / name
+        write_scene(folder, render_extra=IDEAL)
+        _ring_png(folder / "art" / "test_ring.png", r_in, r_out, width)
+        layer = RING.replace("art/ring.png", "art/test_ring.png").replace(
+            "width_mm = 44", f"width_mm = {width}").replace("z_mm = 222", f"z_mm = {z_mid}")
+        scene_i = load_scene(write_scene(folder, layers=layer, render_extra=IDEAL,
+                                         width=160, height=120))
+        viewer = dataclasses.replace(scene_i.viewers[0], fov_deg=6)
+        results[name] = render_viewer(scene_i, viewer, views=()).metrics["hidden_fraction"]
+    assert results["inside"] >= 0.95
+    assert results["outside"] < 0.95
+
+
+def test_sightlines_and_zone_commands_write_their_files(tmp_path, capsys):
+    scene = write_scene(tmp_path / "s", layers=RING)
+    out = tmp_path / "sl"
+    assert main(["sightlines", str(scene), "--heights", "child,1150", "--lateral=-20:20:20",
+                 "--distance", "600:700:100", "--elevation", "1100:1200:50", "--size", "32x24",
+                 "--workers", "1", "--out", str(out), "--json"]) == 0
+    result = json.loads(capsys.readouterr().out)
+    assert "recommendation" in result and result["heights_mm"]["child"] == 1125.0
+    for name in ("floor_child.png", "floor_1150mm.png", "elevation.png", "sightlines.csv",
+                 "sightlines.json"):
+        assert (out / name).is_file()
+    assert main(["zone", str(scene), "--out", str(tmp_path / "z"), "--json"]) == 0
+    zone = json.loads(capsys.readouterr().out)
+    assert zone["axis_hidden"] is False and zone["rings"]
+    assert main(["sightlines", str(scene), "--lateral", "5:1:1"]) == 2
+    assert "--lateral" in capsys.readouterr().err
