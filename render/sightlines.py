@@ -262,12 +262,14 @@ def recommendation(floor_rows: dict[str, list[dict]], elevation_rows: list[dict]
     at_best = [r for r in works if r["d"] == best["d"]]
     along = [r["d"] for r in works if r["h"] == best["h"]]
     heights = [r["h"] for r in at_best]
+    span = (f"only at {best['h']:.0f} mm eye height (no neighbouring height of the sweep "
+            "works: the eye must be placed precisely)" if min(heights) == max(heights) else
+            f"from {min(heights):.0f} to {max(heights):.0f} mm eye height")
     text = (f"Put the floor mark {best['d'] / 1000:.2f} m in front of the panel and the "
             f"eye-port at {best['h']:.0f} mm: there the effect works "
             f"(background likeness {best['background_ssim']:.2f}). On the axis line it "
             f"works from {min(along) / 1000:.2f} to {max(along) / 1000:.2f} m at that "
-            f"height, and from {min(heights):.0f} to {max(heights):.0f} mm eye height at that "
-            "distance.")
+            f"height, and {span} at that distance.")
     for name, rows in floor_rows.items():
         count = sum(r["class"] == "works" for r in rows)
         text += f" {name}: works at {count} of {len(rows)} floor points."
