@@ -31,6 +31,12 @@ PASSED, MOUNT, WALL, PANEL, TIR, BACKWARD = 0, 1, 2, 3, 4, 5
 
 
 @numba.njit(cache=True, inline="always")
+def _advance(x, y, z, dx, dy, dz, t):
+    """Position after moving ``t`` along the direction."""
+    return x + t * dx, y + t * dy, z + t * dz
+
+
+@numba.njit(cache=True, inline="always")
 def _wall_hit(x, y, z, dx, dy, dz, z_plane, radius):
     """Exact tube-wall point if the ray reaches the radius before ``z_plane``, else t < 0."""
     t_plane = (z_plane - z) / dz
@@ -137,26 +143,20 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                         th = _wall_hit(x, y, z, dx, dy, dz, tube_end_z, tube_r)
                         tube_pending = False
                         if th >= 0.0:
-                            x += th * dx
-                            y += th * dy
-                            z += th * dz
+                            x, y, z = _advance(x, y, z, dx, dy, dz, th)
                             fate = WALL
                             stopped = True
                             break
                     if tube_pending:
                         th = _wall_hit(x, y, z, dx, dy, dz, ze, tube_r)
                         if th >= 0.0:
-                            x += th * dx
-                            y += th * dy
-                            z += th * dz
+                            x, y, z = _advance(x, y, z, dx, dy, dz, th)
                             fate = WALL
                             stopped = True
                             break
                 elif kind[e] == PROBE and stop_z <= ze:
                     th = (stop_z - z) / dz
-                    x += th * dx
-                    y += th * dy
-                    z += th * dz
+                    x, y, z = _advance(x, y, z, dx, dy, dz, th)
                     fate = WALL
                     stopped = True
                     break
@@ -197,9 +197,7 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                         stopped = True
                         break
                     t = ff / (g + math.sqrt(disc))
-                    x += t * dx
-                    y += t * dy
-                    z += t * dz
+                    x, y, z = _advance(x, y, z, dx, dy, dz, t)
                 if x * x + y * y > semi[e] * semi[e]:
                     fate = MOUNT
                     stopped = True
@@ -222,6 +220,7 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                 dy = eta * dy + scale * ny
                 dz = eta * dz + scale * nz
                 if coat[e] < 0.0:
+                    # optics.fresnel.unpolarised_transmittance, written out for the compiler
                     aa = n1 * cos_i
                     bb = n2 * cos_t
                     rs = (aa - bb) / (aa + bb)
@@ -239,15 +238,11 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                 if inside and tube_pending:
                     th = _wall_hit(x, y, z, dx, dy, dz, tube_end_z, tube_r)
                     if th >= 0.0:
-                        x += th * dx
-                        y += th * dy
-                        z += th * dz
+                        x, y, z = _advance(x, y, z, dx, dy, dz, th)
                         fate = WALL
                 if fate == PASSED and not inside and stop_z < np.inf:
                     th = (stop_z - z) / dz
-                    x += th * dx
-                    y += th * dy
-                    z += th * dz
+                    x, y, z = _advance(x, y, z, dx, dy, dz, th)
                     fate = WALL
         out_state[0, i] = x
         out_state[1, i] = y

@@ -29,6 +29,10 @@ def _load(args):
                       ideal=True if args.ideal else None)
 
 
+def _base_viewer(scene, args):
+    return scene.viewer(args.viewer) if args.viewer else scene.viewers[0]
+
+
 def _range(text: str, key: str) -> list[float]:
     try:
         start, stop, step = (float(v) for v in text.split(":"))
@@ -51,7 +55,7 @@ def _run_record(out: Path, args, started: float, extra: dict) -> None:
 def _walk(args) -> int:
     started = time.perf_counter()
     scene = _load(args)
-    base = scene.viewer(args.viewer) if args.viewer else scene.viewers[0]
+    base = _base_viewer(scene, args)
     height = args.height if args.height is not None else base.eye_mm[1]
     count = args.frames or max(1, round(args.seconds * args.fps))
     if not 1 <= count <= 5000:
@@ -109,7 +113,7 @@ def _walk(args) -> int:
 def _eyes(args) -> int:
     started = time.perf_counter()
     scene = _load(args)
-    base = scene.viewer(args.viewer) if args.viewer else scene.viewers[0]
+    base = _base_viewer(scene, args)
     if args.size:
         width, height = _size(args.size, None)
         base = dataclasses.replace(base, width_px=width, height_px=height)
@@ -204,7 +208,7 @@ def _sightlines(args) -> int:
 def _zone(args) -> int:
     started = time.perf_counter()
     scene = _load(args)
-    base = scene.viewer(args.viewer) if args.viewer else scene.viewers[0]
+    base = _base_viewer(scene, args)
     if args.box:
         try:
             size = [float(v) for v in args.box.split(",")]
