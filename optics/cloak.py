@@ -189,22 +189,42 @@ def design_cloak(f_outer_mm: float, f_inner_mm: float, choice: LensChoice,
     ----------
     .. [1] Choi and Howell (2014), the spacing rule for thin lenses.
     """
-    t1, t2 = ideal_spacings(f_outer_mm, f_inner_mm)
+    ideal_spacings(f_outer_mm, f_inner_mm)  # refuse impossible focal lengths first
     if choice.ideal:
         outer = ThinLens(f_outer_mm, choice.outer_diameter_mm)
         inner = ThinLens(f_inner_mm, choice.inner_diameter_mm)
-        lenses = (outer, inner, inner, outer)
     else:
         outer = _make(f_outer_mm, choice.outer_diameter_mm, choice, "outer")
         inner = _make(f_inner_mm, choice.inner_diameter_mm, choice, "inner")
-        lenses = (outer, inner, inner.mirrored(), outer.mirrored())
-        t1 = _efl(outer) + _efl(inner)
+    return design_from_lenses(outer, inner, coated)
+
+
+def design_from_lenses(outer, inner, coated: bool = False) -> CloakDesign:
+    """Lay out a cloak from two given lenses (each used twice; the far pair mirrored).
+
+    Parameters
+    ----------
+    outer, inner : ThinLens or ThickLens
+        The outer and inner lens as built; their focal lengths at 587.6 nm set the
+        spacings (Choi and Howell), and thick lenses get the principal-plane correction.
+    coated : bool
+        Anti-reflection coating on every surface.
+
+    Raises
+    ------
+    InputError
+        If the outer lens is not longer in focal length, or the lenses would overlap.
+    """
+    f_outer, f_inner = _efl(outer), _efl(inner)
+    t1, t2 = ideal_spacings(f_outer, f_inner)
+    ideal = isinstance(outer, ThinLens) and isinstance(inner, ThinLens)
+    lenses = (outer, inner, inner.mirrored(), outer.mirrored())
 
     def build(gap: float) -> LensSystem:
         return LensSystem(_lay_out(lenses, t1, gap), coated=coated)
 
     gap = t2
-    if not choice.ideal:
+    if not ideal:
         # B - length is affine in the gap: two evaluations give the exact root.
         def residual(g: float) -> float:
             system = build(g)
@@ -216,11 +236,11 @@ def design_cloak(f_outer_mm: float, f_inner_mm: float, choice: LensChoice,
     for a, b in zip(system.lenses, system.lenses[1:], strict=False):
         if b.z_mm < a.back_z_mm:
             raise InputError(
-                "f_inner", f_inner_mm,
+                "f_inner", f_inner,
                 f"lenses {a.label} and {b.label} would overlap; the lenses are too thick "
                 "for these focal lengths: use longer focal lengths or smaller diameters",
             )
-    return CloakDesign(system, float(f_outer_mm), float(f_inner_mm), t1, gap, t2)
+    return CloakDesign(system, float(f_outer), float(f_inner), t1, gap, t2)
 
 
 def _make(focal_mm: float, diameter_mm: float, choice: LensChoice, role: str) -> ThickLens:

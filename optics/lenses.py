@@ -254,11 +254,37 @@ def lens_for_focal_length(
         thickness = new
     else:
         raise too_big
+    return ThickLens(*_radii(power, n, thickness, q), thickness, diameter, material)
+
+
+def _radii(power: float, n: float, thickness: float, q: float) -> tuple[float, float]:
+    """Radii [mm] of a lens of ``power`` [1/mm], index ``n``, thickness and shape factor q."""
     k = _power_for_thickness(power, n, thickness, q)
+    if k is None:
+        raise InputError("center_thickness_mm", thickness, "no lens of this shape and "
+                         "focal length can be this thick")
     c1, c2 = k * (1.0 + q) / 2.0, k * (q - 1.0) / 2.0
-    r1 = math.inf if c1 == 0.0 else 1.0 / c1
-    r2 = math.inf if c2 == 0.0 else 1.0 / c2
-    return ThickLens(r1, r2, thickness, diameter, material)
+    return (math.inf if c1 == 0.0 else 1.0 / c1), (math.inf if c2 == 0.0 else 1.0 / c2)
+
+
+def lens_with_thickness(focal_length_mm: float, diameter_mm: float, material: Material,
+                        shape: str | float, center_thickness_mm: float,
+                        wavelength_nm: float = D_LINE_NM) -> ThickLens:
+    """A thick lens of given focal length, shape and centre thickness (a catalogue lens).
+
+    The radii solve the thick lensmaker's equation (Hecht) for that thickness.
+
+    Raises
+    ------
+    InputError
+        If no such lens exists or its edge would be thinner than zero.
+    """
+    f = require_finite_positive("focal_length_mm", focal_length_mm)
+    thickness = require_finite_positive("center_thickness_mm", center_thickness_mm)
+    n = float(material.index(wavelength_nm))
+    r1, r2 = _radii(1.0 / f, n, thickness, _shape_factor(shape))
+    return ThickLens(r1, r2, thickness, require_finite_positive("diameter_mm", diameter_mm),
+                     material)
 
 
 def _shape_factor(shape) -> float:

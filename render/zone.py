@@ -54,6 +54,7 @@ class ZoneMap:
     seen: np.ndarray
     glass: np.ndarray
     fans: list
+    axial_step_mm: float = AXIAL_STEP_MM
 
     @property
     def hidden(self) -> np.ndarray:
@@ -91,10 +92,11 @@ def _mark(seen: np.ndarray, radius: np.ndarray, step: float) -> None:
 
 
 def cloaked_zone(scene: Scene, eyes_room: np.ndarray, wavelength_nm: float = 587.56,
-                 radial: int = 161, azimuthal: int = 48) -> ZoneMap:
+                 radial: int = 161, azimuthal: int = 48,
+                 axial_step_mm: float = AXIAL_STEP_MM) -> ZoneMap:
     """Trace fans from every eye point (room frame, mm) and map the hidden interior."""
     housing = scene.housing
-    z = np.arange(housing.panel_z_mm + AXIAL_STEP_MM / 2, housing.tube_end_mm, AXIAL_STEP_MM)
+    z = np.arange(housing.panel_z_mm + axial_step_mm / 2, housing.tube_end_mm, axial_step_mm)
     r = np.arange(RADIAL_STEP_MM / 2, housing.tube_radius_mm, RADIAL_STEP_MM)
     seen = np.zeros((len(z), len(r)), bool)
     glass = np.zeros(len(z), bool)
@@ -124,7 +126,7 @@ def cloaked_zone(scene: Scene, eyes_room: np.ndarray, wavelength_nm: float = 587
                                    crossing.x.reshape(shape)[azimuthal // 2, ::10]])
             meridional.append(pick)
         fans.append(np.array(meridional).T)
-    return ZoneMap(z, r, seen, glass, fans)
+    return ZoneMap(z, r, seen, glass, fans, axial_step_mm)
 
 
 @dataclass
@@ -183,9 +185,9 @@ def largest_rings(zone: ZoneMap, scene: Scene) -> list[Ring]:
         if found is None:
             continue
         r0, r1, c0, c1 = found
+        half = zone.axial_step_mm / 2
         rings.append(Ring(name, c0 * RADIAL_STEP_MM, c1 * RADIAL_STEP_MM,
-                          float(zone.z_mm[rows[r0]] - AXIAL_STEP_MM / 2),
-                          float(zone.z_mm[rows[r1 - 1]] + AXIAL_STEP_MM / 2)))
+                          float(zone.z_mm[rows[r0]] - half), float(zone.z_mm[rows[r1 - 1]] + half)))
     return rings
 
 
@@ -208,8 +210,8 @@ def zone_image(zone: ZoneMap, scene: Scene, rings: list[Ring], title: str) -> np
             col = hidden[i]
             if not col.any():
                 continue
-            x0 = px(zz - AXIAL_STEP_MM / 2, 0)[0]
-            x1 = max(px(zz + AXIAL_STEP_MM / 2, 0)[0], x0 + 1)
+            x0 = px(zz - zone.axial_step_mm / 2, 0)[0]
+            x1 = max(px(zz + zone.axial_step_mm / 2, 0)[0], x0 + 1)
             ys = np.flatnonzero(col)
             for start, stop in _runs(ys):
                 ya = px(0, sign * zone.r_mm[start] - sign * RADIAL_STEP_MM / 2)[1]

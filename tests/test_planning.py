@@ -1,0 +1,71 @@
+"""Lens inventories and the design search."""
+
+import pytest
+
+from render import planning
+from render.cli import main
+from render.inventory import load_inventory
+
+HEADER = "id,focal_length_mm,diameter_mm,center_thickness_mm,shape,material,price,quantity\n"
+SMALL = HEADER + """A400,400,100,9.5,plano-convex,acrylic,85,4
+B300,300,100,11.5,plano-convex,acrylic,80,2
+C150,150,100,22.6,plano-convex,acrylic,95,3
+D75,75,50,10.8,biconvex,soda-lime,50,4
+E200,200,50,5.2,biconvex,soda-lime,45,1
+"""
+
+
+def _write(tmp_path, text):
+    path = tmp_path / "lenses.csv"
+    path.write_text(text)
+    return path
+
+
+def test_inventory_lenses_have_their_focal_lengths(tmp_path):
+    # Each lens is solved from the thick lensmaker's equation (Hecht ch. 6) at its given
+    # centre thickness; its effective focal length must be the catalogue value.
+    items = load_inventory(_write(tmp_path, SMALL))
+    assert [round(i.focal_length_mm, 6) for i in items] == [400, 300, 150, 75, 200]
+    assert items[0].lens.center_thickness_mm == 9.5 and items[0].lens.edge_thickness_mm > 0
+
+
+@pytest.mark.parametrize("text, match", [
+    (HEADER + "A,400,abc,9,biconvex,acrylic,10,2\n", r"lenses.csv:2, column diameter_mm = 'abc'"),
+    (HEADER + "A,400,100,9,biconvex,cheese,10,2\n", r"lenses.csv:2, column material"),
+    (HEADER + "A,400,100,9,biconvex,acrylic,10,2.5\n", r"column quantity = '2.5': must be a whole"),
+    (HEADER + "A,400,100,0.5,biconvex,acrylic,10,2\n", r"lenses.csv:2, column center_thickness"),
+    (HEADER + "A,400,100,9,biconvex,acrylic,10,2\nA,300,100,9,biconvex,acrylic,10,2\n",
+     r"lenses.csv:3, column id = 'A': ids must be unique"),
+    ("id,focal_length_mm\nA,100\n", r"lenses.csv:1 = .*missing column"),
+    (HEADER.strip() + ",colour\nA,400,100,9,biconvex,acrylic,10,2,red\n",
+     r"column colour = 'colour': unknown column"),
+])
+def test_malformed_rows_name_line_and_column(tmp_path, text, match):
+    with pytest.raises(ValueError, match=match):
+        load_inventory(_write(tmp_path, text))
+
+
+def test_search_finds_the_brute_force_best_and_explains_rejections(tmp_path):
+    path = _write(tmp_path, SMALL)
+    items = load_inventory(path)
+    constraints = planning.Constraints(max_length_mm=1500.0)
+    rows = planning.search(path, items, constraints, tmp_path / "jobs", workers=1)
+    # Brute force: evaluate every ordered pair directly and keep the widest acuity field.
+    brute = [planning.evaluate(a, b, constraints) for a in items for b in items if a is not b
+             and a.focal_length_mm > b.focal_length_mm]
+    best = max((r for r in brute if r["reason"] is None), key=lambda r: r["acuity_field_deg"])
+    assert (rows[0]["outer"], rows[0]["inner"]) == (best["outer"], best["inner"])
+    assert rows[0]["rank"] == 1 and rows[0]["pareto"]
+    reasons = {(r["outer"], r["inner"]): r["reason"] for r in rows}
+    assert "only 1 of E200 in stock" in reasons[("A400", "E200")]
+    assert "285 mm over the maximum length" in reasons[("A400", "C150")]  # 1785 mm long
+    assert len(rows) == len(brute)
+
+
+def test_nothing_feasible_says_what_to_relax(tmp_path, capsys):
+    path = _write(tmp_path, SMALL)
+    assert main(["choose", str(path), "--max-length", "500", "--workers", "1",
+                 "--out", str(tmp_path / "out")]) == 2
+    last = capsys.readouterr().err.strip().splitlines()[-1]  # after the progress lines
+    assert last.startswith("cloakview: error: ")
+    assert "raise --max-length to at least 929 mm" in last
