@@ -14,7 +14,37 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from optics.materials import Material
+
+
+@dataclass(frozen=True)
+class Mount:
+    """A lens's rigid placement error: decentred sideways and tilted about its centre.
+
+    Parameters
+    ----------
+    dx_mm, dy_mm : float
+        Decentre of the lens [mm].
+    tilt_x_deg, tilt_y_deg : float
+        Rotation about the x axis, then about the y axis [deg], about the lens centre.
+    pivot_z_mm : float
+        Axial position of the lens centre [mm].
+    """
+
+    dx_mm: float = 0.0
+    dy_mm: float = 0.0
+    tilt_x_deg: float = 0.0
+    tilt_y_deg: float = 0.0
+    pivot_z_mm: float = 0.0
+
+    def rotation(self) -> np.ndarray:
+        """R = R_y(tilt_y) R_x(tilt_x): local (lens) to device directions."""
+        a, b = np.radians(self.tilt_x_deg), np.radians(self.tilt_y_deg)
+        rx = np.array([[1, 0, 0], [0, np.cos(a), -np.sin(a)], [0, np.sin(a), np.cos(a)]])
+        ry = np.array([[np.cos(b), 0, np.sin(b)], [0, 1, 0], [-np.sin(b), 0, np.cos(b)]])
+        return ry @ rx
 
 
 @dataclass(frozen=True)
@@ -36,6 +66,8 @@ class Refracting:
         reflectance of an anti-reflection coating [fraction].
     label : str
         Name used in reports.
+    mount : Mount, optional
+        Decentre and tilt of the lens this surface belongs to (None: perfectly placed).
     """
 
     z_mm: float
@@ -45,6 +77,7 @@ class Refracting:
     after: Material
     coating_reflectance: float | None = None
     label: str = ""
+    mount: Mount | None = None
 
 
 @dataclass(frozen=True)
@@ -67,6 +100,7 @@ class IdealLens:
     focal_length_mm: float
     semi_aperture_mm: float
     label: str = ""
+    mount: Mount | None = None
 
 
 @dataclass(frozen=True)

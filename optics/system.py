@@ -15,7 +15,7 @@ import numpy as np
 from optics.lenses import ThickLens, ThinLens
 from optics.materials import AIR, D_LINE_NM, Material
 from optics.paraxial import CardinalPoints, cardinal_points, system_matrix
-from optics.surfaces import IdealLens, Refracting
+from optics.surfaces import IdealLens, Mount, Refracting
 
 #: Residual reflectance per surface of a broadband multilayer anti-reflection coating
 #: in the visible (about 0.5 %; common practice, value from memory).
@@ -24,11 +24,22 @@ AR_COATING_REFLECTANCE = 0.005
 
 @dataclass(frozen=True)
 class PlacedLens:
-    """A lens with its viewer-side vertex at ``z_mm`` [mm] on the device axis."""
+    """A lens with its viewer-side vertex at ``z_mm`` [mm] on the device axis.
+
+    ``decentre_mm`` and ``tilt_deg`` describe a placement error (for tolerancing); the
+    paraxial matrices ignore them, the tracer honours them.
+    """
 
     lens: ThinLens | ThickLens
     z_mm: float
     label: str = ""
+    decentre_mm: tuple[float, float] = (0.0, 0.0)
+    tilt_deg: tuple[float, float] = (0.0, 0.0)
+
+    def _mount(self) -> Mount | None:
+        if self.decentre_mm == (0.0, 0.0) and self.tilt_deg == (0.0, 0.0):
+            return None
+        return Mount(*self.decentre_mm, *self.tilt_deg, self.centre_z_mm)
 
     @property
     def back_z_mm(self) -> float:
@@ -44,14 +55,15 @@ class PlacedLens:
         """The lens's surfaces in z order."""
         lens = self.lens
         semi = lens.diameter_mm / 2.0
+        mount = self._mount()
         if isinstance(lens, ThinLens):
-            return [IdealLens(self.z_mm, lens.focal_length_mm, semi, self.label)]
+            return [IdealLens(self.z_mm, lens.focal_length_mm, semi, self.label, mount)]
         coat = AR_COATING_REFLECTANCE if coated else None
         return [
             Refracting(self.z_mm, lens.c1, semi, medium, lens.material, coat,
-                       f"{self.label} front"),
+                       f"{self.label} front", mount),
             Refracting(self.back_z_mm, lens.c2, semi, lens.material, medium, coat,
-                       f"{self.label} back"),
+                       f"{self.label} back", mount),
         ]
 
     def cardinal_points(self, wavelength_nm: float = D_LINE_NM,

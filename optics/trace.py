@@ -269,6 +269,44 @@ def _ideal(bundle: _Bundle, lens: IdealLens, out: _Output) -> _Bundle:
     return bundle
 
 
+def _to_frame(bundle: _Bundle, r: np.ndarray, c, inverse: bool) -> None:
+    """Move rays into a mount's frame (``inverse``) or back: p' = R^T (p - c) + c0."""
+    m = r.T if inverse else r
+    cx, cy, cz = c
+    if inverse:
+        x, y, z = bundle.x - cx, bundle.y - cy, bundle.z - cz
+    else:
+        x, y, z = bundle.x, bundle.y, bundle.z - cz
+    bundle.x = m[0, 0] * x + m[0, 1] * y + m[0, 2] * z
+    bundle.y = m[1, 0] * x + m[1, 1] * y + m[1, 2] * z
+    bundle.z = m[2, 0] * x + m[2, 1] * y + m[2, 2] * z + cz
+    if not inverse:
+        bundle.x += cx
+        bundle.y += cy
+    dx, dy, dz = bundle.dx, bundle.dy, bundle.dz
+    bundle.dx = m[0, 0] * dx + m[0, 1] * dy + m[0, 2] * dz
+    bundle.dy = m[1, 0] * dx + m[1, 1] * dy + m[1, 2] * dz
+    bundle.dz = m[2, 0] * dx + m[2, 1] * dy + m[2, 2] * dz
+
+
+def _in_mount(bundle: _Bundle, element, wavelengths, out: _Output) -> _Bundle:
+    """Meet a decentred or tilted surface: work in its frame, then come back.
+
+    Rays that stop at this surface are recorded where they stopped in the lens's own
+    frame (off by at most the placement error; used only to shade the mount).
+    """
+    mount = element.mount
+    r = mount.rotation()
+    c = (mount.dx_mm, mount.dy_mm, mount.pivot_z_mm)
+    _to_frame(bundle, r, c, inverse=True)
+    if isinstance(element, IdealLens):
+        bundle = _ideal(bundle, element, out)
+    else:
+        bundle = _refract(bundle, element, wavelengths, out)
+    _to_frame(bundle, r, c, inverse=False)
+    return out.retire(bundle, bundle.dz <= 0.0, BACKWARD)
+
+
 def _wall_from_inside(bundle: _Bundle, z_mm: float, radius: float, out: _Output) -> _Bundle:
     """Stop rays that reach the tube radius before plane ``z_mm``, at the exact wall point."""
     t_plane = (z_mm - bundle.z) / bundle.dz
@@ -381,6 +419,13 @@ def _trace_compiled(rays: Rays, ordered, housing: Housing | None) -> TraceResult
     focal = np.array([getattr(e, "focal_length_mm", np.inf) for e in ordered], float)
     coat = np.array([-1.0 if getattr(e, "coating_reflectance", None) is None
                      else e.coating_reflectance for e in ordered], float)
+    frames = np.zeros((max(n_el, 1), 13))  # flag, R (row-major 3x3), pivot (3)
+    for i, e in enumerate(ordered):
+        mount = getattr(e, "mount", None)
+        if mount is not None:
+            frames[i, 0] = 1.0
+            frames[i, 1:10] = mount.rotation().reshape(-1)
+            frames[i, 10:] = (mount.dx_mm, mount.dy_mm, mount.pivot_z_mm)
     probes = [e for e in ordered if isinstance(e, Probe)]
     slot = np.array([probes.index(e) if isinstance(e, Probe) else -1 for e in ordered],
                     np.int64)
@@ -403,8 +448,8 @@ def _trace_compiled(rays: Rays, ordered, housing: Housing | None) -> TraceResult
     cross = np.full((max(len(probes), 1), 3, count), np.nan)
     kernel.trace_rays(rays.x, rays.y, rays.z, rays.dx, rays.dy, rays.dz, rays.throughput,
                       wl_index, kind, ez, curv, semi, focal,
-                      coat, slot, n_before, n_after, box, panel_index, state, fate, entered,
-                      cross)
+                      coat, slot, n_before, n_after, frames, box, panel_index, state, fate,
+                      entered, cross)
     crossings = {p.name: Crossing(cross[k, 0], cross[k, 1], cross[k, 2])
                  for k, p in enumerate(probes)}
     return TraceResult(*state[:6], state[6], fate, entered, crossings)
@@ -456,6 +501,8 @@ def _trace_numpy(rays: Rays, ordered, housing: Housing | None) -> TraceResult:
             if beside is not None:
                 beside = _stop_at_outside_wall(beside, z, out)
                 _record(beside, element, crossings)
+        elif element.mount is not None:
+            inside = _in_mount(inside, element, wavelengths, out)
         elif isinstance(element, IdealLens):
             inside = _ideal(inside, element, out)
         else:

@@ -37,6 +37,31 @@ def _advance(x, y, z, dx, dy, dz, t):
 
 
 @numba.njit(cache=True, inline="always")
+def _frame(x, y, z, dx, dy, dz, f, inverse):
+    """Into a mount's frame (``inverse``: p' = R^T (p - c) + c0) or back; f = frames row.
+
+    The same operations, in the same order, as ``optics.trace._to_frame``.
+    """
+    cx, cy, cz = f[10], f[11], f[12]
+    if inverse:
+        m00, m01, m02, m10, m11, m12, m20, m21, m22 = (f[1], f[4], f[7], f[2], f[5], f[8],
+                                                       f[3], f[6], f[9])
+        x1, y1, z1 = x - cx, y - cy, z - cz
+    else:
+        m00, m01, m02, m10, m11, m12, m20, m21, m22 = (f[1], f[2], f[3], f[4], f[5], f[6],
+                                                       f[7], f[8], f[9])
+        x1, y1, z1 = x, y, z - cz
+    xo = m00 * x1 + m01 * y1 + m02 * z1
+    yo = m10 * x1 + m11 * y1 + m12 * z1
+    zo = m20 * x1 + m21 * y1 + m22 * z1 + cz
+    if not inverse:
+        xo += cx
+        yo += cy
+    return (xo, yo, zo, m00 * dx + m01 * dy + m02 * dz, m10 * dx + m11 * dy + m12 * dz,
+            m20 * dx + m21 * dy + m22 * dz)
+
+
+@numba.njit(cache=True, inline="always")
 def _wall_hit(x, y, z, dx, dy, dz, z_plane, radius):
     """Exact tube-wall point if the ray reaches the radius before ``z_plane``, else t < 0."""
     t_plane = (z_plane - z) / dz
@@ -54,7 +79,7 @@ def _wall_hit(x, y, z, dx, dy, dz, z_plane, radius):
 
 @numba.njit(cache=True, parallel=True, error_model="numpy")
 def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
-               kind, ez, curv, semi, focal, coat, slot, n_before, n_after,
+               kind, ez, curv, semi, focal, coat, slot, n_before, n_after, frames,
                housing, panel_index,
                out_state, out_fate, out_entered, cross):
     """Trace every ray; write end states, fates, entered flags and probe crossings.
@@ -70,6 +95,8 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
         focal length [mm], coating reflectance (< 0 for bare Fresnel), probe slot.
     n_before, n_after : float64 arrays (E, W)
         Indices on each side of each element per wavelength.
+    frames : float64 array (E, 13)
+        Mount of each element: flag, rotation R (row-major), pivot x, y, z [mm].
     housing : float64 array (7,)
         has_housing, panel z, hole radius, panel half width, half height, tube radius,
         tube end [mm].
@@ -172,6 +199,9 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                     continue
                 if not inside:
                     continue
+                mounted = frames[e, 0] > 0.5
+                if mounted:
+                    x, y, z, dx, dy, dz = _frame(x, y, z, dx, dy, dz, frames[e], True)
                 t = (ze - z) / dz
                 x += t * dx
                 y += t * dy
@@ -186,54 +216,60 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                     v = dy / dz - y / f
                     norm = 1.0 / math.sqrt(1.0 + u * u + v * v)
                     dx, dy, dz = u * norm, v * norm, norm
-                    continue
-                c = curv[e]
-                if c != 0.0:
-                    ff = c * (x * x + y * y)
-                    g = dz - c * (x * dx + y * dy)
-                    disc = g * g - c * ff
-                    if disc < 0.0:
+                else:
+                    c = curv[e]
+                    if c != 0.0:
+                        ff = c * (x * x + y * y)
+                        g = dz - c * (x * dx + y * dy)
+                        disc = g * g - c * ff
+                        if disc < 0.0:
+                            fate = MOUNT
+                            stopped = True
+                            break
+                        t = ff / (g + math.sqrt(disc))
+                        x, y, z = _advance(x, y, z, dx, dy, dz, t)
+                    if x * x + y * y > semi[e] * semi[e]:
                         fate = MOUNT
                         stopped = True
                         break
-                    t = ff / (g + math.sqrt(disc))
-                    x, y, z = _advance(x, y, z, dx, dy, dz, t)
-                if x * x + y * y > semi[e] * semi[e]:
-                    fate = MOUNT
-                    stopped = True
-                    break
-                nx, ny, nz = -c * x, -c * y, 1.0 - c * (z - ze)
-                cos_i = dx * nx + dy * ny + dz * nz
-                flip = -1.0 if cos_i < 0.0 else 1.0
-                cos_i = abs(cos_i)
-                n1 = n_before[e, w]
-                n2 = n_after[e, w]
-                eta = n1 / n2
-                kk = 1.0 - eta * eta * (1.0 - cos_i * cos_i)
-                if kk < 0.0:
-                    fate = TIR
-                    stopped = True
-                    break
-                cos_t = math.sqrt(kk)
-                scale = (cos_t - eta * cos_i) * flip
-                dx = eta * dx + scale * nx
-                dy = eta * dy + scale * ny
-                dz = eta * dz + scale * nz
-                if coat[e] < 0.0:
-                    # optics.fresnel.unpolarised_transmittance, written out for the compiler
-                    aa = n1 * cos_i
-                    bb = n2 * cos_t
-                    rs = (aa - bb) / (aa + bb)
-                    cc = n2 * cos_i
-                    dd = n1 * cos_t
-                    rp = (cc - dd) / (cc + dd)
-                    tp *= 1.0 - 0.5 * (rs * rs + rp * rp)
-                else:
-                    tp *= 1.0 - coat[e]
-                if dz <= 0.0:
-                    fate = BACKWARD
-                    stopped = True
-                    break
+                    nx, ny, nz = -c * x, -c * y, 1.0 - c * (z - ze)
+                    cos_i = dx * nx + dy * ny + dz * nz
+                    flip = -1.0 if cos_i < 0.0 else 1.0
+                    cos_i = abs(cos_i)
+                    n1 = n_before[e, w]
+                    n2 = n_after[e, w]
+                    eta = n1 / n2
+                    kk = 1.0 - eta * eta * (1.0 - cos_i * cos_i)
+                    if kk < 0.0:
+                        fate = TIR
+                        stopped = True
+                        break
+                    cos_t = math.sqrt(kk)
+                    scale = (cos_t - eta * cos_i) * flip
+                    dx = eta * dx + scale * nx
+                    dy = eta * dy + scale * ny
+                    dz = eta * dz + scale * nz
+                    if coat[e] < 0.0:
+                        # optics.fresnel.unpolarised_transmittance, written out for numba
+                        aa = n1 * cos_i
+                        bb = n2 * cos_t
+                        rs = (aa - bb) / (aa + bb)
+                        cc = n2 * cos_i
+                        dd = n1 * cos_t
+                        rp = (cc - dd) / (cc + dd)
+                        tp *= 1.0 - 0.5 * (rs * rs + rp * rp)
+                    else:
+                        tp *= 1.0 - coat[e]
+                    if dz <= 0.0:
+                        fate = BACKWARD
+                        stopped = True
+                        break
+                if mounted:
+                    x, y, z, dx, dy, dz = _frame(x, y, z, dx, dy, dz, frames[e], False)
+                    if dz <= 0.0:
+                        fate = BACKWARD
+                        stopped = True
+                        break
             if not stopped:
                 if inside and tube_pending:
                     th = _wall_hit(x, y, z, dx, dy, dz, tube_end_z, tube_r)

@@ -8,7 +8,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from optics.cloak import LensChoice, design_cloak
-from optics.lenses import ThickLens
+from optics.lenses import ThickLens, ThinLens
 from optics.materials import AIR, MATERIALS, ConstantIndex, Material
 from optics.surfaces import Housing, IdealLens, Probe, Refracting
 from optics.system import LensSystem, PlacedLens
@@ -213,3 +213,30 @@ def test_real_cloak_passes_on_axis_rays_like_free_space():
     rays = Rays.from_vectors([[0.0, 0.01, -1.0]], [[0.0, 1e-5, 1.0]], 587.56)
     result = trace(rays, design.system.surfaces)
     assert result.dy[0] / result.dz[0] == pytest.approx(1e-5, abs=1e-9)
+
+
+@pytest.mark.parametrize("backend", ["numpy", "compiled"])
+@pytest.mark.parametrize("tilt_deg", [5.0, 20.0, 40.0])
+def test_tilted_plate_displaces_rays_as_the_textbook_says(glass_n15, tilt_deg, backend):
+    # W. J. Smith, Modern Optical Engineering, 4th ed., ch. 4 (plane-parallel plate): a plate
+    # of thickness t tilted by theta shifts a ray sideways by
+    # D = t sin(theta) (1 - cos(theta) / sqrt(n^2 - sin^2(theta))), without deviating it.
+    t = 10.0
+    plate = PlacedLens(ThickLens(math.inf, math.inf, t, 80.0, glass_n15), 0.0,
+                       tilt_deg=(0.0, tilt_deg))
+    result = trace(_parallel_rays([0.0]), [*plate.surfaces(AIR, False), Probe(50.0, "screen")],
+                   backend=backend)
+    theta = math.radians(tilt_deg)
+    expected = t * math.sin(theta) * (1 - math.cos(theta) / math.sqrt(1.5**2 - math.sin(theta)
+                                                                       ** 2))
+    assert abs(result.crossings["screen"].x[0]) == pytest.approx(expected, rel=1e-9)
+    assert result.dx[0] == pytest.approx(0.0, abs=1e-12)
+
+
+@pytest.mark.parametrize("backend", ["numpy", "compiled"])
+def test_decentred_lens_deviates_by_prentices_rule(backend):
+    # Prentice's rule (ophthalmic optics, e.g. M. Jalie, The Principles of Ophthalmic Lenses):
+    # a lens decentred by c deviates an axial ray by c / f (prism = decentration x power).
+    lens = PlacedLens(ThinLens(250.0, 60.0), 0.0, decentre_mm=(3.0, 0.0))
+    result = trace(_parallel_rays([0.0]), lens.surfaces(AIR, False), backend=backend)
+    assert result.dx[0] / result.dz[0] == pytest.approx(3.0 / 250.0, rel=1e-12)

@@ -40,7 +40,11 @@ def scenes(draw):
                 lens = ThickLens(r1, r2, draw(st.floats(8, 20)), diameter, material)
             except ValueError:
                 lens = ThinLens(100.0, diameter)
-        lenses.append(PlacedLens(lens, z, f"L{i}"))
+        mount = {}
+        if draw(st.booleans()):
+            mount = {"decentre_mm": (draw(st.floats(-2, 2)), draw(st.floats(-2, 2))),
+                     "tilt_deg": (draw(st.floats(-3, 3)), draw(st.floats(-3, 3)))}
+        lenses.append(PlacedLens(lens, z, f"L{i}", **mount))
         z += lens.center_thickness_mm + draw(st.floats(5, 200))
     system = LensSystem(tuple(lenses), coated=draw(st.booleans()))
     probes = [Probe(draw(st.floats(-40, z + 300)), f"p{k}") for k in range(draw(st.integers(0, 3)))]
