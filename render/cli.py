@@ -21,6 +21,7 @@ from optics.materials import MATERIALS, material_by_name
 from render.cautions import cautions_text
 from render.cli_motion import add_commands
 from render.cli_plan import add_commands as add_plan_commands
+from render.cli_report import add_commands as add_report_commands
 from render.composite import TexturePyramids
 from render.design_summary import summarise, table
 from render.options import parse_size, parse_triple
@@ -237,6 +238,7 @@ def build_parser() -> argparse.ArgumentParser:
     demo.set_defaults(run=_demo, ideal=False, viewer=None, eye=None, size=None)
     add_commands(commands)
     add_plan_commands(commands)
+    add_report_commands(commands)
     return parser
 
 

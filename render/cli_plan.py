@@ -77,8 +77,13 @@ def _choose(args) -> int:
 
 
 def tolerance_analysis(scene_path, tol, builds, seed, size, folder, workers=None,
-                       allow_outside=False, ideal=None, progress=None) -> tuple[dict, list]:
-    """Run every build group of a tolerance analysis on the job map; summary and builds."""
+                       allow_outside=False, ideal=None, progress=None,
+                       setup=None) -> tuple[dict, list]:
+    """Run every build group of a tolerance analysis on the job map; summary and builds.
+
+    ``setup`` (a callable giving the worker state) replaces loading ``scene_path``, for a
+    scene that exists only in memory (then the jobs run in this process).
+    """
     groups = tl.plan(tol, builds, seed, size)
     unique = {}
     for jobs in groups.values():
@@ -87,8 +92,11 @@ def tolerance_analysis(scene_path, tol, builds, seed, size, folder, workers=None
     jobs = list(unique.values())
     if progress:
         progress.total = len(jobs)
-    results = run_jobs(tl.build_job, jobs, folder, tl.setup_worker,
-                       (str(scene_path), allow_outside, ideal), workers=workers,
+    if setup is None:
+        setup, args = tl.setup_worker, (str(scene_path), allow_outside, ideal)
+    else:
+        args, workers = (), 1
+    results = run_jobs(tl.build_job, jobs, folder, setup, args, workers=workers,
                        progress=progress)
     by_job = {json.dumps(j, sort_keys=True): r for j, r in zip(jobs, results, strict=True)}
     rows = {name: [by_job[json.dumps(j, sort_keys=True)] for j in jobs_]

@@ -125,7 +125,8 @@ def summarise(tol: Tolerances, groups: dict[str, list[dict]]) -> dict:
         if value <= 0:
             continue
         alone = share(groups[f"{key}x1"])
-        sensitivity.append({"tolerance": key, "value": value, "yield_alone": alone})
+        sensitivity.append({"tolerance": key, "label": LABELS[key], "value": value,
+                            "yield_alone": alone})
         ok = [value * f for f in SCAN if share(groups[f"{key}x{f:g}"]) >= TARGET_YIELD]
         keep[key] = {"largest_tested_with_95_yield": max(ok) if ok else None,
                      "smallest_tested": value * SCAN[0], "scan": {
