@@ -14,7 +14,10 @@ from render.images import write_csv, write_json, write_png
 from render.inventory import load_inventory
 from render.options import parse_size
 from render.progress import Progress
+from render.report import scene_with_lenses
+from render.scene import load_scene
 from render.sweeps import run_jobs
+from render.views import render_viewer
 
 _COLUMNS = ("rank", "pareto", "outer", "inner", "f_outer_mm", "f_inner_mm", "length_mm",
             "acuity_field_deg", "through_window_deg", "object_height_mm", "object_length_mm",
@@ -56,6 +59,8 @@ def _choose(args) -> int:
     write_png(out / "pareto.png", planning.pareto_image(rows))
     if not feasible:
         raise InputError("constraints", args.inventory, planning.relax_hint(rows, constraints))
+    if args.render_top:
+        _render_top(args.render_top, feasible[0], {i.id: i for i in items}, out)
     if args.json:
         print(json.dumps(feasible[:10], indent=2))
         return 0
@@ -143,6 +148,16 @@ def _tolerance(args) -> int:
     return 0
 
 
+def _render_top(scene_path, top: dict, items: dict, out: Path) -> None:
+    """Render the best design in a scene (its layers and first viewer): top_design.png."""
+    scene = scene_with_lenses(load_scene(scene_path), items[top["outer"]].lens,
+                              items[top["inner"]].lens)
+    result = render_viewer(scene, scene.viewers[0], views=("cloaked", "vanish"))
+    write_png(out / "top_design.png", result.images["cloaked"])
+    write_png(out / "top_design_vanish.png", result.images["vanish"])
+    write_json(out / "top_design_metrics.json", result.metrics)
+
+
 def add_commands(commands) -> None:
     """Register the choose and tolerance commands."""
     c = commands.add_parser("choose", help="rank four-lens designs made from a lens "
@@ -158,6 +173,8 @@ def add_commands(commands) -> None:
                    help="smallest object to hide, height x length [mm]")
     c.add_argument("--top", type=int, default=10, help="designs to list (default 10)")
     c.add_argument("--workers", type=int, help="processes (default: one per core)")
+    c.add_argument("--render-top", metavar="SCENE", help="render the best design in this "
+                   "scene (its layers and first viewer) as top_design.png")
     c.add_argument("--out", default="cloakview-designs", metavar="DIR")
     c.add_argument("--json", action="store_true", help="print the best designs as JSON")
     c.set_defaults(run=_choose)

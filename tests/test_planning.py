@@ -1,6 +1,9 @@
 """Lens inventories and the design search."""
 
+import json
+
 import pytest
+from scenes import RING, write_scene
 
 from render import planning
 from render.cli import main
@@ -69,3 +72,15 @@ def test_nothing_feasible_says_what_to_relax(tmp_path, capsys):
     last = capsys.readouterr().err.strip().splitlines()[-1]  # after the progress lines
     assert last.startswith("cloakview: error: ")
     assert "raise --max-length to at least 929 mm" in last
+
+
+def test_render_top_design_in_a_scene(tmp_path):
+    scene = write_scene(tmp_path / "scene", layers=RING)
+    path = _write(tmp_path, HEADER + "O180,180,50,5.6,biconvex,acrylic,40,2\n"
+                  "I60,60,50,13.6,biconvex,acrylic,55,2\n")
+    out = tmp_path / "out"
+    assert main(["choose", str(path), "--workers", "1", "--render-top", str(scene),
+                 "--out", str(out)]) == 0
+    assert (out / "top_design.png").is_file()
+    metrics = json.loads((out / "top_design_metrics.json").read_text())
+    assert metrics["hidden_fraction"] >= 0.95  # the ring sits in this design's cloaked zone
