@@ -9,6 +9,7 @@ from pathlib import Path
 
 from optics.errors import InputError
 from render import planning
+from render import sightlines as sl
 from render import tolerance as tl
 from render.images import write_csv, write_json, write_png
 from render.inventory import load_inventory
@@ -98,7 +99,7 @@ def tolerance_analysis(scene_path, tol, builds, seed, size, folder, workers=None
     if progress:
         progress.total = len(jobs)
     if setup is None:
-        setup, args = tl.setup_worker, (str(scene_path), allow_outside, ideal)
+        setup, args = sl.setup_worker, (str(scene_path), allow_outside, ideal)
     else:
         args, workers = (), 1
     results = run_jobs(tl.build_job, jobs, folder, setup, args, workers=workers,

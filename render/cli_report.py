@@ -27,12 +27,6 @@ from render.tolerance import Tolerances, histogram_image
 from render.views import render_viewer
 
 
-def _design_only(scene):
-    design = min(scene.settings.wavelengths_nm, key=lambda w: abs(w - 587.56))
-    return dataclasses.replace(scene, settings=dataclasses.replace(
-        scene.settings, wavelengths_nm=(design,)))
-
-
 def _report(args) -> int:
     started = time.perf_counter()
     scene = load_scene(args.scene, allow_outside_paths=args.allow_outside_paths)
@@ -85,7 +79,7 @@ def _report(args) -> int:
         walk_rows.append({"eye_x_mm": float(eye[0]), "verdict": r.metrics["verdict"]})
     write_png(out / "walk_strip.png", np.concatenate(strip, axis=1))
     progress("walk-by")
-    quick = _design_only(scene)
+    quick = scene.at_design_wavelength()
     state = (quick, TexturePyramids(quick))
     axis = scene.placement.axis_height_mm
     xs, ds = sl.grid(-60, 60, 10, "x"), sl.grid(600, 3000, 200, "d")

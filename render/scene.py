@@ -131,6 +131,11 @@ class Scene:
     tube_rgb: np.ndarray = field(repr=False)
     panel_rgb: np.ndarray = field(repr=False)
 
+    def at_design_wavelength(self) -> Scene:
+        """The same scene traced at one wavelength (the one nearest 587.6 nm), for sweeps."""
+        design = min(self.settings.wavelengths_nm, key=lambda w: abs(w - D_LINE_NM))
+        return replace(self, settings=replace(self.settings, wavelengths_nm=(design,)))
+
     def viewer(self, name: str) -> Viewer:
         """The viewer called ``name``."""
         for v in self.viewers:

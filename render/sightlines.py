@@ -19,7 +19,6 @@ References
 
 from __future__ import annotations
 
-import dataclasses
 import math
 
 import cv2
@@ -75,10 +74,8 @@ def sweep_viewer(scene: Scene, eye, size=(96, 54)) -> Viewer:
 
 def setup_worker(scene_path: str, allow_outside: bool, ideal: bool | None):
     """Per-worker state: the scene (design wavelength only) and its texture pyramids."""
-    scene = load_scene(scene_path, allow_outside_paths=allow_outside, ideal=ideal)
-    design = min(scene.settings.wavelengths_nm, key=lambda w: abs(w - 587.56))
-    scene = dataclasses.replace(scene, settings=dataclasses.replace(
-        scene.settings, wavelengths_nm=(design,)))
+    scene = load_scene(scene_path, allow_outside_paths=allow_outside,
+                       ideal=ideal).at_design_wavelength()
     return scene, TexturePyramids(scene)
 
 

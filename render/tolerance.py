@@ -22,8 +22,6 @@ import numpy as np
 
 from optics.lenses import ThickLens, ThinLens
 from optics.system import LensSystem
-from render.composite import TexturePyramids
-from render.scene import load_scene
 from render.sightlines import classify
 from render.views import render_viewer
 
@@ -66,15 +64,6 @@ def perturbed(system: LensSystem, tol: Tolerances, rng: np.random.Generator) -> 
             tilt_deg=(float(tol.tilt_deg * u[3]), float(tol.tilt_deg * u[4]))
             if tol.tilt_deg else (0.0, 0.0)))
     return dataclasses.replace(system, lenses=tuple(lenses))
-
-
-def setup_worker(scene_path: str, allow_outside: bool, ideal: bool | None):
-    """Per-worker state: the scene (design wavelength only) and its pyramids."""
-    scene = load_scene(scene_path, allow_outside_paths=allow_outside, ideal=ideal)
-    design = min(scene.settings.wavelengths_nm, key=lambda w: abs(w - 587.56))
-    scene = dataclasses.replace(scene, settings=dataclasses.replace(
-        scene.settings, wavelengths_nm=(design,)))
-    return scene, TexturePyramids(scene)
 
 
 def build_job(state, job: dict) -> dict:

@@ -8,6 +8,7 @@ from scenes import RING, write_scene
 from render import tolerance as tl
 from render.cli_plan import tolerance_analysis
 from render.scene import load_scene
+from render.sightlines import setup_worker
 from render.views import render_viewer
 
 IDEAL = "ideal = true"
@@ -21,7 +22,7 @@ def test_zero_tolerances_reproduce_the_nominal_design(tmp_path):
     summary, builds = tolerance_analysis(path, tl.Tolerances(), 6, 1, (64, 48),
                                          tmp_path / "jobs", workers=1)
     assert summary["yield"] == 1.0
-    state = tl.setup_worker(str(path), False, None)
+    state = setup_worker(str(path), False, None)
     viewer = dataclasses.replace(state[0].viewers[0], width_px=64, height_px=48)
     nominal = render_viewer(state[0], viewer, state[1], views=(), supersample=1).metrics
     for build in builds:
