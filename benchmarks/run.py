@@ -5,11 +5,15 @@ Not a test: the numbers depend on the machine. Every speed is measured in this r
 numpy and compiled tracer on the same rays, so the ratio is like for like.
 """
 
+import argparse
 import dataclasses
 import json
 import os
 import platform
 import resource
+import subprocess
+import sys
+import tempfile
 import time
 from importlib import resources
 
@@ -77,9 +81,24 @@ def frame_times():
     return rows
 
 
+def sweep_time():
+    """Wall time of the default sight-line sweep of the gallery scene, from a cold start."""
+    scene = str(resources.files("sample_scenes") / "gallery" / "scene.toml")
+    with tempfile.TemporaryDirectory() as out:
+        start = time.perf_counter()
+        subprocess.run([sys.executable, "-m", "render.cli", "sightlines", scene, "--out", out,
+                        "--json"], check=True, capture_output=True)
+        return time.perf_counter() - start
+
+
 def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--skip-sweep", action="store_true",
+                        help="leave out the default sight-line sweep (about 35 s)")
+    args = parser.parse_args()
     rates, count, surfaces = tracer_rates()
     frames = frame_times()
+    sweep = None if args.skip_sweep else sweep_time()
     ratio = rates["compiled"] / rates["numpy"] if "compiled" in rates else None
     report = {
         "date": time.strftime("%Y-%m-%d"),
@@ -88,6 +107,7 @@ def main():
                    "steps_per_s": {k: round(v) for k, v in rates.items()},
                    "compiled_over_numpy": None if ratio is None else round(ratio, 2)},
         "frames": frames,
+        "sightline_sweep_s": None if sweep is None else round(sweep, 1),
         "peak_memory_mb": round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024),
     }
     print(f"{'tracer path':<12}{'ray-surface steps/s':>22}")
@@ -99,6 +119,8 @@ def main():
         print(f"{row['frame']:<9}{row['size']:>11}{row['supersample']:>4}"
               f"{row['wavelengths']:>4}{row['cloaked_frame_s']:>11.3f}"
               f"{row['all_views_and_metrics_s']:>13.3f}")
+    if sweep is not None:
+        print(f"default sight-line sweep (gallery, 2737 points): {sweep:.1f} s")
     print(f"peak memory: {report['peak_memory_mb']} MB\n")
     print(json.dumps(report, indent=2))
 
