@@ -85,7 +85,7 @@ def run_jobs(fn, jobs: list[dict], folder: Path, setup, setup_args=(), workers=N
                                  initargs=(setup, setup_args),
                                  mp_context=multiprocessing.get_context("spawn")) as pool:
             futures = pool.map(_run_one, [(fn, job) for _, job in todo],
-                               chunksize=max(1, len(todo) // (8 * workers)))
+                               chunksize=max(1, min(4, len(todo) // (8 * workers))))
             for (key, _), result in zip(todo, futures, strict=True):
                 results[key] = _store(folder, key, result, progress)
     return [results[key] for key in keys]
