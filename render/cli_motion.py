@@ -57,7 +57,7 @@ def _walk(args) -> int:
     scene = _load(args)
     base = _base_viewer(scene, args)
     height = args.height if args.height is not None else base.eye_mm[1]
-    count = args.frames or max(1, round(args.seconds * args.fps))
+    count = args.frames if args.frames is not None else max(1, round(args.seconds * args.fps))
     if not 1 <= count <= 5000:
         raise InputError("--frames", count, "a video must have 1 to 5000 frames")
     if args.path == "straight":

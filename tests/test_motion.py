@@ -49,6 +49,8 @@ def test_walk_from_csv_path_and_bad_rows(tmp_path, capsys):
     assert main(["walk", str(scene), "--path", str(path), "--size", "32x24", "--workers", "1",
                  "--fps", "10", "--out", str(out)]) == 0
     assert iio.imread(out / "walk.gif").shape[0] == 2
+    assert main(["walk", str(scene), "--frames", "0", "--out", str(out)]) == 2
+    assert "--frames = 0: a video must have 1 to 5000 frames" in capsys.readouterr().err
     path.write_text("x_mm,y_mm,z_mm\n0,1150,-600\n0,tall,-700\n")
     assert main(["walk", str(scene), "--path", str(path), "--out", str(out)]) == 2
     assert "path.csv:3" in capsys.readouterr().err
