@@ -51,19 +51,26 @@ def _basis(viewer: Viewer) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return forward, right, np.cross(forward, right)
 
 
-def pixel_directions(viewer: Viewer, supersample: int, row_range=None) -> np.ndarray:
-    """Pinhole directions (rows, columns, 3) in the room frame, row 0 at the top.
+def pixel_directions(viewer: Viewer, supersample: int, row_range=None,
+                     basis=None) -> np.ndarray:
+    """Pinhole unit directions (rows, columns, 3), row 0 at the top.
 
-    ``row_range`` = (first, stop) limits the sample rows (of height x supersample).
+    ``row_range`` = (first, stop) limits the sample rows (of height x supersample);
+    ``basis`` = (forward, right, up) gives the eye's axes in the wanted frame (default
+    the room frame).
     """
-    forward, right, up = _basis(viewer)
+    forward, right, up = basis if basis is not None else _basis(viewer)
     cols, rows = viewer.width_px * supersample, viewer.height_px * supersample
     first, stop = row_range or (0, rows)
     half = math.tan(math.radians(viewer.fov_deg) / 2.0)
     px = ((np.arange(cols) + 0.5) / cols * 2.0 - 1.0) * half
     py = (1.0 - (np.arange(first, stop) + 0.5) / rows * 2.0) * half * rows / cols
-    d = forward + px[None, :, None] * right + py[:, None, None] * up
-    return d / np.linalg.norm(d, axis=-1, keepdims=True)
+    # The basis is orthonormal, so |forward + px right + py up|^2 = 1 + px^2 + py^2.
+    scale = 1.0 / np.sqrt(1.0 + px[None, :] ** 2 + py[:, None] ** 2)
+    d = np.empty((len(py), cols, 3))
+    for k in range(3):
+        d[..., k] = (forward[k] + px[None, :] * right[k] + py[:, None] * up[k]) * scale
+    return d
 
 
 def _pupil_offsets(viewer: Viewer) -> np.ndarray:
@@ -94,8 +101,8 @@ def camera_rays(viewer: Viewer, placement: Placement, supersample: int,
     row_range : tuple of int, optional
         (first, stop) sample rows to make, for rendering in bands.
     """
-    directions = placement.directions_to_device(pixel_directions(viewer, supersample,
-                                                                 row_range))
+    basis = tuple(placement.directions_to_device(v) for v in _basis(viewer))
+    directions = pixel_directions(viewer, supersample, row_range, basis)
     rows, cols = directions.shape[:2]
     offsets = _pupil_offsets(viewer)
     eye = placement.to_device(np.asarray(viewer.eye_mm, float))

@@ -100,6 +100,8 @@ def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
     ``level`` is each ray's mip level (see :func:`footprint_levels`), blended between
     the two nearest pyramid levels [2].
     """
+    if float(np.nanmax(level, initial=0.0)) <= 0.0:
+        return _remap(pyramid[0], u, v)  # nothing minified: one bilinear pass, no gathers
     out = np.zeros((len(u), 4), np.float32)
     rows = np.flatnonzero(~np.isnan(u))
     if not len(rows):
