@@ -159,6 +159,19 @@ def _render_top(scene_path, top: dict, items: dict, out: Path) -> None:
     write_json(out / "top_design_metrics.json", result.metrics)
 
 
+def add_tolerance_options(parser) -> None:
+    """The four +- tolerance options, shared by ``tolerance`` and ``report``."""
+    parser.add_argument("--axial", type=float, default=1.0, metavar="MM",
+                        help="+- axial position of each lens [mm] (default 1)")
+    parser.add_argument("--decentre", type=float, default=0.5, metavar="MM",
+                        help="+- decentre of each lens [mm] (default 0.5)")
+    parser.add_argument("--tilt", type=float, default=0.5, metavar="DEG",
+                        help="+- tilt of each lens [deg] (default 0.5)")
+    parser.add_argument("--focal", type=float, default=1.0, metavar="PCT",
+                        help="+- focal length of each lens [%%] (default 1, a usual "
+                        "catalogue tolerance)")
+
+
 def add_commands(commands) -> None:
     """Register the choose and tolerance commands."""
     c = commands.add_parser("choose", help="rank four-lens designs made from a lens "
@@ -183,15 +196,7 @@ def add_commands(commands) -> None:
     t = commands.add_parser("tolerance", help="Monte Carlo over builds: yield, which "
                             "tolerance matters most, and the tolerances for 95 %% yield")
     t.add_argument("scene", help="scene file (TOML); its first viewer is the design viewer")
-    t.add_argument("--axial", type=float, default=1.0, metavar="MM",
-                   help="+- axial position of each lens [mm] (default 1)")
-    t.add_argument("--decentre", type=float, default=0.5, metavar="MM",
-                   help="+- decentre of each lens [mm] (default 0.5)")
-    t.add_argument("--tilt", type=float, default=0.5, metavar="DEG",
-                   help="+- tilt of each lens [deg] (default 0.5)")
-    t.add_argument("--focal", type=float, default=1.0, metavar="PCT",
-                   help="+- focal length of each lens [%%] (default 1, a usual catalogue "
-                   "tolerance)")
+    add_tolerance_options(t)
     t.add_argument("--builds", type=int, default=40, help="builds per setting (default 40)")
     t.add_argument("--seed", type=int, default=1, help="random seed (default 1)")
     t.add_argument("--size", metavar="WxH", help="render size per build (default 128x72)")

@@ -14,7 +14,7 @@ from render import sightlines as sl
 from render import walk
 from render import zone as zn
 from render.cautions import CAUTIONS
-from render.cli_plan import tolerance_analysis
+from render.cli_plan import add_tolerance_options, tolerance_analysis
 from render.composite import TexturePyramids
 from render.design_summary import summarise
 from render.images import write_json, write_png, write_text
@@ -159,10 +159,7 @@ def add_commands(commands) -> None:
     r.add_argument("--inventory", help="lens inventory CSV, to build the device from it")
     r.add_argument("--outer", metavar="ID", help="inventory id of the outer lenses")
     r.add_argument("--inner", metavar="ID", help="inventory id of the inner lenses")
-    r.add_argument("--axial", type=float, default=1.0, metavar="MM")
-    r.add_argument("--decentre", type=float, default=0.5, metavar="MM")
-    r.add_argument("--tilt", type=float, default=0.5, metavar="DEG")
-    r.add_argument("--focal", type=float, default=1.0, metavar="PCT")
+    add_tolerance_options(r)
     r.add_argument("--builds", type=int, default=20, help="builds per tolerance setting")
     r.add_argument("--allow-outside-paths", action="store_true")
     r.add_argument("--out", default="cloakview-report", metavar="DIR")
