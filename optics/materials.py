@@ -33,6 +33,11 @@ D_LINE_NM = 587.56
 C_LINE_NM = 656.27
 
 
+def nearest_to_d_line(wavelengths_nm) -> float:
+    """The wavelength [nm] of a set closest to the d line (the design wavelength)."""
+    return min(wavelengths_nm, key=lambda w: abs(w - D_LINE_NM))
+
+
 def _micrometres(wavelength_nm):
     return np.asarray(wavelength_nm, dtype=np.float64) * 1e-3
 

@@ -21,6 +21,7 @@ import numpy as np
 from optics.cloak import design_from_lenses
 from optics.errors import InputError
 from optics.fields import view_quality
+from optics.materials import D_LINE_NM
 from optics.surfaces import Housing
 from optics.trace import Rays, trace
 from render import zone as zn
@@ -51,7 +52,7 @@ def _bench_scene(design) -> Scene:
     grey = np.full(3, 0.5, np.float32)
     return Scene(Path("design-search"), "design search", system, design, housing,
                  Placement(_AXIS_MM, 0.0, 0.0, 0.0), (), (),
-                 Settings((587.56,), 1, False, grey), grey, grey)
+                 Settings((D_LINE_NM,), 1, False, grey), grey, grey)
 
 
 def _eyes(constraints: Constraints, panel_z: float) -> np.ndarray:
@@ -92,7 +93,7 @@ def evaluate(outer: Item, inner: Item, constraints: Constraints) -> dict:
                         "over the budget"
         return row
     row.update(view_quality(design, constraints.viewing_distance_mm))
-    axial = trace(Rays.from_vectors([[0.0, 0.0, -100.0]], [[0.0, 0.0, 1.0]], 587.56),
+    axial = trace(Rays.from_vectors([[0.0, 0.0, -100.0]], [[0.0, 0.0, 1.0]], D_LINE_NM),
                   design.system.surfaces)
     row["transmittance"] = float(axial.throughput[0])
     scene = _bench_scene(design)

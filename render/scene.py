@@ -24,7 +24,7 @@ import numpy as np
 from optics.cloak import CloakDesign, LensChoice, design_cloak
 from optics.errors import InputError
 from optics.lenses import ThickLens, ThinLens, sag
-from optics.materials import C_LINE_NM, D_LINE_NM, F_LINE_NM, material_by_name
+from optics.materials import C_LINE_NM, D_LINE_NM, F_LINE_NM, material_by_name, nearest_to_d_line
 from optics.surfaces import Housing
 from optics.system import LensSystem, PlacedLens
 from render.images import hex_colour_linear, read_texture
@@ -133,7 +133,7 @@ class Scene:
 
     def at_design_wavelength(self) -> Scene:
         """The same scene traced at one wavelength (the one nearest 587.6 nm), for sweeps."""
-        design = min(self.settings.wavelengths_nm, key=lambda w: abs(w - D_LINE_NM))
+        design = nearest_to_d_line(self.settings.wavelengths_nm)
         return replace(self, settings=replace(self.settings, wavelengths_nm=(design,)))
 
     def viewer(self, name: str) -> Viewer:

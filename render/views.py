@@ -16,7 +16,7 @@ from dataclasses import dataclass
 import cv2
 import numpy as np
 
-from optics.materials import D_LINE_NM
+from optics.materials import nearest_to_d_line
 from optics.surfaces import Refracting
 from optics.trace import Rays
 from render import metrics as m
@@ -98,7 +98,7 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample) -> Tra
     """
     weights = channel_weights(wavelengths)
     dispersive = setup.lenses and any(isinstance(s, Refracting) for s in scene.system.surfaces)
-    design = _design_wavelength(wavelengths)
+    design = nearest_to_d_line(wavelengths)
     order = sorted(wavelengths if dispersive else (design,), key=lambda w: w != design)
     kept = {design, min(order), max(order)}
     wall = _front_background(scene).name
@@ -143,10 +143,6 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample) -> Tra
                                                                         strict=True)))
                for wl, chunks in parts.items()}
     return TracedView(image, cover["hidden"], cover["entered"], cover["through"], records)
-
-
-def _design_wavelength(wavelengths) -> float:
-    return min(wavelengths, key=lambda w: abs(w - D_LINE_NM))
 
 
 def _front_background(scene: Scene):
@@ -237,7 +233,7 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
 def _measure(scene, viewer, traced, srgb) -> dict:
     cloaked = traced["cloaked"]
     records = cloaked.records
-    seen = records[_design_wavelength(list(records))]
+    seen = records[nearest_to_d_line(list(records))]
     ref = next(iter(traced["reference"].records.values()))
     through_px = cloaked.through >= 0.999
     hidden, ratio = m.hidden_fraction(cloaked.hidden, traced["naked"].hidden)

@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import cv2
 import numpy as np
 
+from optics.materials import D_LINE_NM
 from optics.surfaces import Probe
 from optics.trace import Rays, trace
 from render.scene import Scene, _lens_glass_extent
@@ -91,7 +92,7 @@ def _mark(seen: np.ndarray, radius: np.ndarray, step: float) -> None:
         seen |= np.cumsum(diff[:-1]) > 0
 
 
-def cloaked_zone(scene: Scene, eyes_room: np.ndarray, wavelength_nm: float = 587.56,
+def cloaked_zone(scene: Scene, eyes_room: np.ndarray, wavelength_nm: float = D_LINE_NM,
                  radial: int = 161, azimuthal: int = 48,
                  axial_step_mm: float = AXIAL_STEP_MM) -> ZoneMap:
     """Trace fans from every eye point (room frame, mm) and map the hidden interior."""
