@@ -18,14 +18,13 @@ import time
 from importlib import resources
 
 import numpy as np
-
-from optics.cloak import LensChoice, design_cloak
-from optics.materials import MATERIALS
-from optics.trace import Rays, available_backends, trace
-from render.composite import TexturePyramids
-from render.mapper import SETUPS
-from render.scene import load_scene
-from render.views import _trace_view, render_viewer
+from cloakview.optics.cloak import LensChoice, design_cloak
+from cloakview.optics.materials import MATERIALS
+from cloakview.optics.trace import Rays, available_backends, trace
+from cloakview.render.frame.composite import TexturePyramids
+from cloakview.render.frame.mapper import SETUPS
+from cloakview.render.frame.views import _trace_view, render_viewer
+from cloakview.render.scene.loader import load_scene
 
 FRAMES = [("preview", (640, 360), 1, (587.56,)),
           ("HD", (1280, 720), 2, (486.13, 587.56, 656.27)),

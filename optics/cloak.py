@@ -34,12 +34,11 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-
-from optics.errors import InputError, require_finite_positive
-from optics.lenses import ThickLens, ThinLens, lens_for_focal_length
-from optics.materials import C_LINE_NM, D_LINE_NM, F_LINE_NM, Material
-from optics.system import LensSystem, PlacedLens
-from optics.trace import Rays, trace
+from cloakview.optics.errors import InputError, require_finite_positive
+from cloakview.optics.lenses import ThickLens, ThinLens, lens_for_focal_length
+from cloakview.optics.materials import C_LINE_NM, D_LINE_NM, F_LINE_NM, Material
+from cloakview.optics.system import LensSystem, PlacedLens
+from cloakview.optics.trace import Rays, trace
 
 DESIGN_WAVELENGTHS_NM = (F_LINE_NM, D_LINE_NM, C_LINE_NM)
 

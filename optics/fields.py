@@ -15,11 +15,10 @@ from __future__ import annotations
 import math
 
 import numpy as np
-
-from optics.cloak import CloakDesign
-from optics.materials import C_LINE_NM, D_LINE_NM, F_LINE_NM
-from optics.surfaces import Probe
-from optics.trace import Rays, trace
+from cloakview.optics.cloak import CloakDesign
+from cloakview.optics.materials import C_LINE_NM, D_LINE_NM, F_LINE_NM
+from cloakview.optics.surfaces import Probe
+from cloakview.optics.trace import Rays, trace
 
 ARCMIN_PER_RAD = 180.0 * 60.0 / math.pi
 ACUITY_ARCMIN = 1.0  # [2]

@@ -18,9 +18,8 @@ import math
 from dataclasses import dataclass, replace
 
 import numpy as np
-
-from optics.errors import InputError, require_finite_positive
-from optics.materials import D_LINE_NM, Material
+from cloakview.optics.errors import InputError, require_finite_positive
+from cloakview.optics.materials import D_LINE_NM, Material
 
 #: Shape names and their Coddington shape factors q = (R2 + R1)/(R2 - R1) (Smith [2]).
 #: "plano-convex" has its curved face toward the viewer (-z), "convex-plano" its flat face.

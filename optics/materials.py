@@ -24,8 +24,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-
-from optics.errors import InputError
+from cloakview.optics.errors import InputError
 
 #: Fraunhofer F, d and C lines [nm] (Smith [5]).
 F_LINE_NM = 486.13

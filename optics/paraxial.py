@@ -18,9 +18,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-
-from optics.materials import Material
-from optics.surfaces import IdealLens, Refracting
+from cloakview.optics.materials import Material
+from cloakview.optics.surfaces import IdealLens, Refracting
 
 
 def free_space(distance_mm: float) -> np.ndarray:

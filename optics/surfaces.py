@@ -15,8 +15,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-
-from optics.materials import Material
+from cloakview.optics.materials import Material
 
 
 @dataclass(frozen=True)

@@ -11,11 +11,10 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-
-from optics.lenses import ThickLens, ThinLens
-from optics.materials import AIR, D_LINE_NM, Material
-from optics.paraxial import CardinalPoints, cardinal_points, system_matrix
-from optics.surfaces import IdealLens, Mount, Refracting
+from cloakview.optics.lenses import ThickLens, ThinLens
+from cloakview.optics.materials import AIR, D_LINE_NM, Material
+from cloakview.optics.paraxial import CardinalPoints, cardinal_points, system_matrix
+from cloakview.optics.surfaces import IdealLens, Mount, Refracting
 
 #: Residual reflectance per surface of a broadband multilayer anti-reflection coating
 #: in the visible (about 0.5 %; common practice, value from memory).
@@ -26,20 +25,20 @@ AR_COATING_REFLECTANCE = 0.005
 class PlacedLens:
     """A lens with its viewer-side vertex at ``z_mm`` [mm] on the device axis.
 
-    ``decentre_mm`` and ``tilt_deg`` describe a placement error (for tolerancing); the
+    ``decenter_mm`` and ``tilt_deg`` describe a placement error (for tolerancing); the
     paraxial matrices ignore them, the tracer honours them.
     """
 
     lens: ThinLens | ThickLens
     z_mm: float
     label: str = ""
-    decentre_mm: tuple[float, float] = (0.0, 0.0)
+    decenter_mm: tuple[float, float] = (0.0, 0.0)
     tilt_deg: tuple[float, float] = (0.0, 0.0)
 
     def _mount(self) -> Mount | None:
-        if self.decentre_mm == (0.0, 0.0) and self.tilt_deg == (0.0, 0.0):
+        if self.decenter_mm == (0.0, 0.0) and self.tilt_deg == (0.0, 0.0):
             return None
-        return Mount(*self.decentre_mm, *self.tilt_deg, self.centre_z_mm)
+        return Mount(*self.decenter_mm, *self.tilt_deg, self.center_z_mm)
 
     @property
     def back_z_mm(self) -> float:
@@ -47,7 +46,7 @@ class PlacedLens:
         return self.z_mm + self.lens.center_thickness_mm
 
     @property
-    def centre_z_mm(self) -> float:
+    def center_z_mm(self) -> float:
         """Axial position of the lens centre, where a rail carriage holds it [mm]."""
         return self.z_mm + 0.5 * self.lens.center_thickness_mm
 

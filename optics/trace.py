@@ -36,11 +36,10 @@ import os
 from dataclasses import dataclass
 
 import numpy as np
-
-from optics.errors import InputError
-from optics.fresnel import unpolarised_transmittance
-from optics.materials import Material
-from optics.surfaces import Housing, IdealLens, Probe, Refracting
+from cloakview.optics.errors import InputError
+from cloakview.optics.fresnel import unpolarised_transmittance
+from cloakview.optics.materials import Material
+from cloakview.optics.surfaces import Housing, IdealLens, Probe, Refracting
 
 PASSED, MOUNT, WALL, PANEL, TIR, BACKWARD = range(6)
 FATE_NAMES = ("passed", "mount", "wall", "panel", "tir", "backward")
@@ -361,7 +360,7 @@ def _wavelength_table(wavelength_nm: np.ndarray) -> tuple[np.ndarray, np.ndarray
 def available_backends() -> tuple[str, ...]:
     """The tracing paths this machine can run: always "numpy", "compiled" with numba."""
     try:
-        import optics.trace_kernel  # noqa: F401
+        import cloakview.optics.trace_kernel  # noqa: F401
     except ImportError:
         return ("numpy",)
     return ("numpy", "compiled")
@@ -406,7 +405,7 @@ def trace(rays: Rays, elements, housing: Housing | None = None,
 
 
 def _trace_compiled(rays: Rays, ordered, housing: Housing | None) -> TraceResult:
-    from optics import trace_kernel as kernel
+    from cloakview.optics import trace_kernel as kernel
 
     count = len(rays)
     wavelengths, wl_index = _wavelength_table(rays.wavelength_nm)

@@ -1,6 +1,5 @@
 import pytest
-
-from optics.materials import ConstantIndex, Material
+from cloakview.optics.materials import ConstantIndex, Material
 
 
 @pytest.fixture

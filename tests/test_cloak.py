@@ -2,12 +2,16 @@
 
 import numpy as np
 import pytest
+from cloakview.optics.cloak import (
+    LensChoice,
+    design_cloak,
+    ideal_spacings,
+    through_window_half_angle_deg,
+)
+from cloakview.optics.errors import InputError
+from cloakview.optics.materials import AIR, MATERIALS
+from cloakview.optics.paraxial import free_space, system_matrix, thin_lens
 from sympy.physics.optics import FreeSpace, ThinLens
-
-from optics.cloak import LensChoice, design_cloak, ideal_spacings, through_window_half_angle_deg
-from optics.errors import InputError
-from optics.materials import AIR, MATERIALS
-from optics.paraxial import free_space, system_matrix, thin_lens
 
 
 def _sympy_cloak(f1, f2, t1, t2):

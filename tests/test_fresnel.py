@@ -2,8 +2,7 @@
 
 import numpy as np
 import pytest
-
-from optics.fresnel import cos_transmission, reflectance_sp, unpolarised_transmittance
+from cloakview.optics.fresnel import cos_transmission, reflectance_sp, unpolarised_transmittance
 
 
 def _cosines(n1, n2, angle_deg):

@@ -5,12 +5,11 @@ import math
 import numpy as np
 import pytest
 import sympy
+from cloakview.optics.errors import InputError
+from cloakview.optics.lenses import SHAPES, ThickLens, ThinLens, lens_for_focal_length, sag
+from cloakview.optics.materials import MATERIALS
+from cloakview.optics.system import PlacedLens
 from sympy.physics.optics import lens_makers_formula
-
-from optics.errors import InputError
-from optics.lenses import SHAPES, ThickLens, ThinLens, lens_for_focal_length, sag
-from optics.materials import MATERIALS
-from optics.system import PlacedLens
 
 
 def _hecht_focal_length(n, r1, r2, d):

@@ -1,9 +1,8 @@
 """Refractive indices against published data."""
 
 import pytest
-
-from optics.errors import InputError
-from optics.materials import (
+from cloakview.optics.errors import InputError
+from cloakview.optics.materials import (
     C_LINE_NM,
     D_LINE_NM,
     F_LINE_NM,

@@ -8,15 +8,14 @@ import imageio.v3 as iio
 import imageio_ffmpeg
 import numpy as np
 import pytest
+from cloakview.render.cli.main import main
+from cloakview.render.frame.views import render_viewer
+from cloakview.render.scene.loader import load_scene
+from cloakview.render.sweeps import eyes
+from cloakview.render.sweeps import sightlines as sl
+from cloakview.render.sweeps import zone as zn
+from cloakview.render.sweeps.jobs import run_jobs
 from scenes import RING, write_scene
-
-from render import sightlines as sl
-from render import walk
-from render import zone as zn
-from render.cli import main
-from render.scene import load_scene
-from render.sweeps import run_jobs
-from render.views import render_viewer
 
 IDEAL = "ideal = true"
 
@@ -61,13 +60,13 @@ def test_anaglyph_takes_red_from_left_and_cyan_from_right():
     left[..., 0] = 200
     right = np.zeros((2, 2, 3), np.uint8)
     right[..., 1:] = 90
-    out = walk.anaglyph(left, right)
+    out = eyes.anaglyph(left, right)
     assert (out[..., 0] == 200).all() and (out[..., 1:] == 90).all()
 
 
 def test_eye_pair_is_ipd_apart_and_fixates_the_same_point(tmp_path):
     scene = load_scene(write_scene(tmp_path))
-    left, right = walk.eye_pair(scene.viewers[0], 63.0)
+    left, right = eyes.eye_pair(scene.viewers[0], 63.0)
     # Dodgson (2004): adult mean interpupillary distance about 63 mm.
     assert np.linalg.norm(np.subtract(right.eye_mm, left.eye_mm)) == pytest.approx(63.0)
     assert left.eye_mm[0] < right.eye_mm[0]  # left eye on the visitor's left (x to the right)
@@ -86,8 +85,8 @@ def test_eyes_command_says_when_one_eye_is_off(tmp_path, capsys):
     assert pair.shape[:2] == (48, 128)
     half_off = {"through_pixels": 0}
     sees = {"through_pixels": 500}
-    assert "Only the left eye" in walk.both_eyes_statement(sees, half_off)
-    assert "Both eyes" in walk.both_eyes_statement(sees, sees)
+    assert "Only the left eye" in eyes.statement(sees, half_off)
+    assert "Both eyes" in eyes.statement(sees, sees)
 
 
 def test_sightline_map_of_symmetric_scene_is_symmetric(tmp_path):
@@ -180,8 +179,9 @@ def test_zone_agrees_with_renders(tmp_path):
 def test_sightlines_and_zone_commands_write_their_files(tmp_path, capsys):
     scene = write_scene(tmp_path / "s", layers=RING)
     out = tmp_path / "sl"
-    assert main(["sightlines", str(scene), "--heights", "child,1150", "--lateral=-20:20:20",
-                 "--distance", "600:700:100", "--elevation", "1100:1200:50", "--size", "32x24",
+    assert main(["sightlines", str(scene), "--heights", "child,1150", "--lateral-range",
+                 "-20:20:20", "--distance-range", "600:700:100", "--height-range", "1100:1200:50",
+                 "--size", "32x24",
                  "--workers", "1", "--out", str(out), "--json"]) == 0
     result = json.loads(capsys.readouterr().out)
     assert "recommendation" in result and result["heights_mm"]["child"] == 1125.0
@@ -191,5 +191,5 @@ def test_sightlines_and_zone_commands_write_their_files(tmp_path, capsys):
     assert main(["zone", str(scene), "--out", str(tmp_path / "z"), "--json"]) == 0
     zone = json.loads(capsys.readouterr().out)
     assert zone["axis_hidden"] is False and zone["rings"]
-    assert main(["sightlines", str(scene), "--lateral", "5:1:1"]) == 2
+    assert main(["sightlines", str(scene), "--lateral-range", "5:1:1"]) == 2
     assert "--lateral" in capsys.readouterr().err

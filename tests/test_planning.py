@@ -3,11 +3,10 @@
 import json
 
 import pytest
+from cloakview.render.cli.main import main
+from cloakview.render.planning import search as planning
+from cloakview.render.planning.inventory import load_inventory
 from scenes import RING, write_scene
-
-from render import planning
-from render.cli import main
-from render.inventory import load_inventory
 
 HEADER = "id,focal_length_mm,diameter_mm,center_thickness_mm,shape,material,price,quantity\n"
 SMALL = HEADER + """A400,400,100,9.5,plano-convex,acrylic,85,4
@@ -79,7 +78,7 @@ def test_render_top_design_in_a_scene(tmp_path):
     path = _write(tmp_path, HEADER + "O180,180,50,5.6,biconvex,acrylic,40,2\n"
                   "I60,60,50,13.6,biconvex,acrylic,55,2\n")
     out = tmp_path / "out"
-    assert main(["choose", str(path), "--workers", "1", "--render-top", str(scene),
+    assert main(["choose", str(path), "--workers", "1", "--render-in", str(scene),
                  "--out", str(out)]) == 0
     assert (out / "top_design.png").is_file()
     metrics = json.loads((out / "top_design_metrics.json").read_text())

@@ -5,13 +5,12 @@ import json
 
 import numpy as np
 import pytest
+from cloakview.render.cli.main import main
+from cloakview.render.color import linear_to_srgb, srgb_to_linear
+from cloakview.render.frame.composite import channel_weights
+from cloakview.render.frame.views import render_viewer
+from cloakview.render.scene.loader import load_scene
 from scenes import DOT, RING, write_scene
-
-from render.cli import main
-from render.composite import channel_weights
-from render.images import linear_to_srgb, srgb_to_linear
-from render.scene import load_scene
-from render.views import render_viewer
 
 IDEAL = "ideal = true"
 

@@ -6,9 +6,8 @@ import shutil
 import subprocess
 
 import pytest
+from cloakview.render.cli.main import main
 from scenes import RING, write_scene
-
-from render.cli import main
 
 SECTIONS = ("1. Layout", "2. Bill of lenses", "3. What visitors see", "4. Walking past",
             "5. Where visitors can stand", "6. What can be hidden", "7. Build tolerances",

@@ -5,11 +5,10 @@ import re
 import imageio.v3 as iio
 import numpy as np
 import pytest
+from cloakview.optics.errors import InputError
+from cloakview.render.cli.main import main
+from cloakview.render.scene.loader import load_scene
 from scenes import RING, write_scene
-
-from optics.errors import InputError
-from render.cli import main
-from render.scene import load_scene
 
 
 def _load(tmp_path, **kwargs):

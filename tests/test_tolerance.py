@@ -3,15 +3,19 @@
 import dataclasses
 
 import numpy as np
+from cloakview.render.frame.views import render_viewer
+from cloakview.render.planning import tolerance as tl
+from cloakview.render.scene.loader import load_scene
+from cloakview.render.sweeps.sightlines import setup_worker
 from scenes import RING, write_scene
 
-from render import tolerance as tl
-from render.cli_plan import tolerance_analysis
-from render.scene import load_scene
-from render.sightlines import setup_worker
-from render.views import render_viewer
-
 IDEAL = "ideal = true"
+
+
+def tolerance_analysis(path, tol, builds, seed, size, folder):
+    """The analysis in this process, as the ``tolerance`` command runs it."""
+    return tl.analyse(tol, builds, seed, size, folder, setup_worker, (str(path), False, None),
+                      workers=1)
 
 
 def test_zero_tolerances_reproduce_the_nominal_design(tmp_path):
@@ -20,7 +24,7 @@ def test_zero_tolerances_reproduce_the_nominal_design(tmp_path):
     rng = np.random.default_rng(3)
     assert tl.perturbed(scene.system, tl.Tolerances(), rng) == scene.system
     summary, builds = tolerance_analysis(path, tl.Tolerances(), 6, 1, (64, 48),
-                                         tmp_path / "jobs", workers=1)
+                                         tmp_path / "jobs")
     assert summary["yield"] == 1.0
     state = setup_worker(str(path), False, None)
     viewer = dataclasses.replace(state[0].viewers[0], width_px=64, height_px=48)
@@ -32,13 +36,13 @@ def test_zero_tolerances_reproduce_the_nominal_design(tmp_path):
 
 def test_builds_are_reproducible_and_errors_stay_within_limits(tmp_path):
     scene = load_scene(write_scene(tmp_path, layers=RING))
-    tol = tl.Tolerances(axial_mm=1.0, decentre_mm=0.5, tilt_deg=0.3, focal_pct=2.0)
+    tol = tl.Tolerances(axial_mm=1.0, decenter_mm=0.5, tilt_deg=0.3, focal_pct=2.0)
     a = tl.perturbed(scene.system, tol, np.random.default_rng(7))
     b = tl.perturbed(scene.system, tol, np.random.default_rng(7))
     assert a == b
     for built, nominal in zip(a.lenses, scene.system.lenses, strict=True):
         assert abs(built.z_mm - nominal.z_mm) <= 1.0
-        assert np.hypot(*built.decentre_mm) <= 0.5 + 1e-12
+        assert np.hypot(*built.decenter_mm) <= 0.5 + 1e-12
         assert max(map(abs, built.tilt_deg)) <= 0.3
         f0 = nominal.cardinal_points().efl_mm
         assert abs(built.cardinal_points().efl_mm / f0 - 1) <= 0.021
@@ -47,9 +51,9 @@ def test_builds_are_reproducible_and_errors_stay_within_limits(tmp_path):
 def test_yield_falls_as_a_tolerance_grows(tmp_path):
     path = write_scene(tmp_path / "s", layers=RING, render_extra=IDEAL)
     yields = []
-    for decentre in (0.0, 0.5, 2.0, 6.0):
-        summary, _ = tolerance_analysis(path, tl.Tolerances(decentre_mm=decentre), 12, 5,
-                                        (48, 36), tmp_path / "jobs", workers=1)
+    for decenter in (0.0, 0.5, 2.0, 6.0):
+        summary, _ = tolerance_analysis(path, tl.Tolerances(decenter_mm=decenter), 12, 5,
+                                        (48, 36), tmp_path / "jobs")
         yields.append(summary["yield"])
     assert yields[0] == 1.0
     assert all(b <= a + 0.1 for a, b in zip(yields, yields[1:], strict=False))  # MC noise
@@ -58,9 +62,9 @@ def test_yield_falls_as_a_tolerance_grows(tmp_path):
 
 def test_sensitivity_ranks_the_tolerance_that_matters(tmp_path):
     path = write_scene(tmp_path / "s", layers=RING, render_extra=IDEAL)
-    summary, _ = tolerance_analysis(path, tl.Tolerances(axial_mm=0.1, decentre_mm=5.0), 8, 2,
-                                    (48, 36), tmp_path / "jobs", workers=1)
-    assert summary["sensitivity"][0]["tolerance"] == "decentre_mm"
-    assert set(summary["for_95_yield"]) == {"axial_mm", "decentre_mm"}
-    assert set(summary["for_95_yield"]["decentre_mm"]["scan"]) == {"1.25", "2.5", "5", "10",
+    summary, _ = tolerance_analysis(path, tl.Tolerances(axial_mm=0.1, decenter_mm=5.0), 8, 2,
+                                    (48, 36), tmp_path / "jobs")
+    assert summary["sensitivity"][0]["tolerance"] == "decenter_mm"
+    assert set(summary["for_95_yield"]) == {"axial_mm", "decenter_mm"}
+    assert set(summary["for_95_yield"]["decenter_mm"]["scan"]) == {"1.25", "2.5", "5", "10",
                                                                    "20"}

@@ -4,15 +4,14 @@ import math
 
 import numpy as np
 import pytest
+from cloakview.optics.cloak import LensChoice, design_cloak
+from cloakview.optics.lenses import ThickLens, ThinLens
+from cloakview.optics.materials import AIR, MATERIALS, ConstantIndex, Material
+from cloakview.optics.surfaces import Housing, IdealLens, Probe, Refracting
+from cloakview.optics.system import LensSystem, PlacedLens
+from cloakview.optics.trace import MOUNT, PANEL, PASSED, TIR, WALL, Rays, trace
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
-from optics.cloak import LensChoice, design_cloak
-from optics.lenses import ThickLens, ThinLens
-from optics.materials import AIR, MATERIALS, ConstantIndex, Material
-from optics.surfaces import Housing, IdealLens, Probe, Refracting
-from optics.system import LensSystem, PlacedLens
-from optics.trace import MOUNT, PANEL, PASSED, TIR, WALL, Rays, trace
 
 
 def _parallel_rays(heights, z0=-10.0, wavelength=587.56):
@@ -177,7 +176,7 @@ def test_small_rays_follow_abcd(system, height, slope):
     z0 = system.front_z_mm - 10.0
     rays = Rays.from_vectors([[0.0, y0, z0]], [[0.0, math.tan(u0), 1.0]], 587.56)
     result = trace(rays, [*system.surfaces, Probe(system.back_z_mm + 10.0, "out")])
-    from optics.paraxial import system_matrix
+    from cloakview.optics.paraxial import system_matrix
     m = system_matrix(system.surfaces, 587.56, z0, system.back_z_mm + 10.0, AIR)
     y1, u1 = m @ [y0, u0]
     assert result.crossings["out"].y[0] == pytest.approx(y1, abs=1e-10)
@@ -237,6 +236,6 @@ def test_tilted_plate_displaces_rays_as_the_textbook_says(glass_n15, tilt_deg, b
 def test_decentred_lens_deviates_by_prentices_rule(backend):
     # Prentice's rule (ophthalmic optics, e.g. M. Jalie, The Principles of Ophthalmic Lenses):
     # a lens decentred by c deviates an axial ray by c / f (prism = decentration x power).
-    lens = PlacedLens(ThinLens(250.0, 60.0), 0.0, decentre_mm=(3.0, 0.0))
+    lens = PlacedLens(ThinLens(250.0, 60.0), 0.0, decenter_mm=(3.0, 0.0))
     result = trace(_parallel_rays([0.0]), lens.surfaces(AIR, False), backend=backend)
     assert result.dx[0] / result.dz[0] == pytest.approx(3.0 / 250.0, rel=1e-12)

@@ -4,16 +4,15 @@ import math
 
 import numpy as np
 import pytest
+from cloakview.optics import trace as trace_module
+from cloakview.optics import trace_kernel
+from cloakview.optics.lenses import ThickLens, ThinLens
+from cloakview.optics.materials import MATERIALS
+from cloakview.optics.surfaces import Housing, Probe
+from cloakview.optics.system import LensSystem, PlacedLens
+from cloakview.optics.trace import FATE_NAMES, Rays, trace
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
-from optics import trace as trace_module
-from optics import trace_kernel
-from optics.lenses import ThickLens, ThinLens
-from optics.materials import MATERIALS
-from optics.surfaces import Housing, Probe
-from optics.system import LensSystem, PlacedLens
-from optics.trace import FATE_NAMES, Rays, trace
 
 pytestmark = pytest.mark.skipif("compiled" not in trace_module.available_backends(),
                                 reason="numba is not installed")
@@ -42,7 +41,7 @@ def scenes(draw):
                 lens = ThinLens(100.0, diameter)
         mount = {}
         if draw(st.booleans()):
-            mount = {"decentre_mm": (draw(st.floats(-2, 2)), draw(st.floats(-2, 2))),
+            mount = {"decenter_mm": (draw(st.floats(-2, 2)), draw(st.floats(-2, 2))),
                      "tilt_deg": (draw(st.floats(-3, 3)), draw(st.floats(-3, 3)))}
         lenses.append(PlacedLens(lens, z, f"L{i}", **mount))
         z += lens.center_thickness_mm + draw(st.floats(5, 200))
@@ -92,10 +91,9 @@ def test_environment_switch(monkeypatch):
 
 
 def test_renders_agree_between_paths(tmp_path, monkeypatch):
+    from cloakview.render.frame.views import render_viewer
+    from cloakview.render.scene.loader import load_scene
     from scenes import RING, write_scene
-
-    from render.scene import load_scene
-    from render.views import render_viewer
 
     scene = load_scene(write_scene(tmp_path, layers=RING, width=80, height=60))
     images = {}

@@ -1,0 +1,1 @@
+"""The public functions behind every command; :mod:`cloakview` re-exports them."""

@@ -1,0 +1,180 @@
+"""Public functions for planning a build: choose lenses from an inventory, tolerance a build."""
+
+from __future__ import annotations
+
+import dataclasses
+import time
+from pathlib import Path
+
+import numpy as np
+from cloakview.optics.errors import InputError
+from cloakview.render.api.motion import check_viewing_box
+from cloakview.render.files import run_record, write_csv, write_json, write_png
+from cloakview.render.frame.metrics import WORKS_DEFINITION
+from cloakview.render.frame.views import render_viewer
+from cloakview.render.planning import search
+from cloakview.render.planning import tolerance as tl
+from cloakview.render.planning.inventory import load_inventory
+from cloakview.render.progress import Progress
+from cloakview.render.proposal import charts
+from cloakview.render.scene.loader import load_scene
+from cloakview.render.scene.relayout import scene_with_lenses
+from cloakview.render.sweeps import sightlines as sl
+
+#: Columns of ``designs.csv`` and ``pareto.csv``.
+DESIGN_COLUMNS = ("rank", "pareto", "outer", "inner", "f_outer_mm", "f_inner_mm", "length_mm",
+                  "acuity_field_deg", "through_window_deg", "object_height_mm",
+                  "object_length_mm", "object_gap", "color_fringe_arcmin", "transmittance",
+                  "mass_g", "cost", "reason")
+#: Default render size of one tolerance build [pixels].
+BUILD_SIZE_PX = (128, 72)
+
+
+def _limit(key: str, value, low: float) -> float:
+    """An optional upper limit: None means none; otherwise finite and above ``low``."""
+    if value is None:
+        return float("inf")
+    if not (np.isfinite(value) and value > low):
+        raise InputError(key, value, f"must be a finite number greater than {low:g} "
+                         "(leave it out for no limit)")
+    return float(value)
+
+
+def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | None = None,
+           budget: float | None = None, distance_mm: float = 1500.0,
+           viewing_box_mm=(0.0, 0.0, 0.0), min_object_mm=(0.0, 0.0),
+           render_in: str | Path | None = None, workers: int | None = None,
+           progress: bool = False) -> dict:
+    """Rank four-lens designs made from a lens inventory under the planner's constraints.
+
+    Parameters
+    ----------
+    inventory : path
+        Lens inventory CSV (see :mod:`cloakview.render.planning.inventory`).
+    out : path
+        Folder for ``designs.csv``, ``designs.json``, ``pareto.csv``, ``pareto.png``.
+    max_length_mm, budget : float, optional
+        Longest device [mm] and most the four lenses may cost; None for no limit.
+    distance_mm : float
+        Viewing distance from the front panel [mm].
+    viewing_box_mm : (width, height, depth)
+        Size of the viewing zone round the eye point [mm] (zeros: a point).
+    min_object_mm : (height, length)
+        Smallest object to hide [mm].
+    render_in : path, optional
+        A scene file: render the best design in it (its layers and first viewer) as
+        ``top_design.png`` and ``top_design_vanish.png``.
+
+    Returns
+    -------
+    dict
+        ``designs``: every pair, feasible ones first and ranked (rejected ones with the
+        reason); ``feasible``: how many; ``constraints``; ``seconds``.
+
+    Raises
+    ------
+    InputError
+        For bad constraints, or when no design meets them (the message says which
+        constraint to relax and by how much).
+    """
+    started = time.perf_counter()
+    items = load_inventory(inventory)
+    if not (np.isfinite(distance_mm) and distance_mm > 0):
+        raise InputError("distance_mm", distance_mm, "must be a finite number greater than 0")
+    need = tuple(float(v) for v in min_object_mm)
+    if len(need) != 2 or not all(np.isfinite(v) and v >= 0 for v in need):
+        raise InputError("min_object_mm", list(min_object_mm), "must be HEIGHT,LENGTH in mm "
+                         "(finite, 0 or more)")
+    constraints = search.Constraints(
+        max_length_mm=_limit("max_length_mm", max_length_mm, 0.0),
+        max_budget=_limit("budget", budget, -1e-300),
+        viewing_distance_mm=float(distance_mm),
+        zone_mm=check_viewing_box(viewing_box_mm), min_object_mm=need)
+    out = Path(out)
+    bar = Progress(search.pair_count(items), "design search", enabled=progress)
+    rows = search.search(inventory, items, constraints, out / ".jobs", workers, bar)
+    feasible = [r for r in rows if r["reason"] is None]
+    if not feasible:
+        raise InputError("constraints", str(inventory), search.relax_hint(rows, constraints))
+    summary = {"constraints": {"max_length_mm": max_length_mm, "budget": budget,
+                               "distance_mm": distance_mm,
+                               "viewing_box_mm": list(constraints.zone_mm),
+                               "min_object_mm": list(need)},
+               "designs": rows, "feasible": len(feasible),
+               "seconds": round(time.perf_counter() - started, 2)}
+    write_csv(out / "designs.csv", rows, DESIGN_COLUMNS)
+    write_json(out / "designs.json", summary)
+    write_csv(out / "pareto.csv", [r for r in feasible if r["pareto"]], DESIGN_COLUMNS)
+    write_png(out / "pareto.png", charts.pareto_image(rows))
+    if render_in is not None:
+        by_id = {i.id: i for i in items}
+        scene = scene_with_lenses(load_scene(render_in), by_id[feasible[0]["outer"]].lens,
+                                  by_id[feasible[0]["inner"]].lens)
+        result = render_viewer(scene, scene.viewers[0], views=("cloaked", "vanish"))
+        write_png(out / "top_design.png", result.images["cloaked"])
+        write_png(out / "top_design_vanish.png", result.images["vanish"])
+        write_json(out / "top_design_metrics.json", result.metrics)
+    run_record(out, "choose", {"inventory": str(inventory), **summary["constraints"],
+                               "render_in": str(render_in) if render_in else None}, started)
+    return summary
+
+
+def check_tolerances(axial_mm: float, decenter_mm: float, tilt_deg: float,
+                     focal_pct: float) -> tl.Tolerances:
+    """The four +- tolerances, each finite and within a sane range."""
+    tol = tl.Tolerances(axial_mm, decenter_mm, tilt_deg, focal_pct)
+    highs = {"axial_mm": 100.0, "decenter_mm": 100.0, "tilt_deg": 45.0, "focal_pct": 50.0}
+    for key, value in dataclasses.asdict(tol).items():
+        if not (np.isfinite(value) and 0.0 <= value <= highs[key]):
+            raise InputError(key, value, f"must be a number from 0 to {highs[key]:g}")
+    return tol
+
+
+def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
+              decenter_mm: float = 0.5, tilt_deg: float = 0.5, focal_pct: float = 1.0,
+              builds: int = 40, seed: int = 1, size_px: tuple[int, int] = BUILD_SIZE_PX,
+              ideal: bool | None = None, allow_outside_paths: bool = False,
+              workers: int | None = None, progress: bool = False) -> dict:
+    """Monte Carlo over builds: yield, which tolerance matters most, tolerances for 95 %.
+
+    Parameters
+    ----------
+    scene_path : path
+        The scene file; its first viewer is the design viewer.
+    axial_mm, decenter_mm, tilt_deg, focal_pct : float
+        Plus-or-minus limits of each lens's axial position [mm], sideways decenter
+        [mm], tilt [deg] and focal length [%], each drawn uniformly.
+    builds : int
+        Builds per setting (1 to 10000).
+    seed : int
+        Random seed (0 or more): the same seed gives the same builds.
+    out : path
+        Folder for ``tolerance.json``, ``builds.csv``, ``histograms.png``, ``run.json``.
+
+    Returns
+    -------
+    dict
+        Yield, sensitivity ranking, the largest tested tolerance of each kind that keeps
+        95 % yield, and ``rows`` (one dictionary per build of the specified tolerances).
+    """
+    started = time.perf_counter()
+    tol = check_tolerances(axial_mm, decenter_mm, tilt_deg, focal_pct)
+    if not 1 <= builds <= 10000:
+        raise InputError("builds", builds, "must be 1 to 10000")
+    if not 0 <= seed < 2 ** 32:
+        raise InputError("seed", seed, "must be a whole number from 0 to 4294967295")
+    load_scene(scene_path, allow_outside_paths=allow_outside_paths, ideal=ideal)  # check first
+    out = Path(out)
+    bar = Progress(1, "tolerance", enabled=progress)
+    summary, rows = tl.analyse(tol, builds, seed, size_px, out / ".jobs", sl.setup_worker,
+                               (str(scene_path), allow_outside_paths, ideal), workers, bar)
+    summary.update(seed=seed, definition=WORKS_DEFINITION,
+                   seconds=round(time.perf_counter() - started, 2))
+    write_json(out / "tolerance.json", summary)
+    write_csv(out / "builds.csv", rows)
+    write_png(out / "histograms.png", charts.histogram_image(
+        rows, f"{builds} builds: yield {summary['yield']:.0%}"))
+    run_record(out, "tolerance", {"scene": str(scene_path), **dataclasses.asdict(tol),
+                                  "builds": builds, "seed": seed, "size_px": list(size_px)},
+               started)
+    return {**summary, "rows": rows}

@@ -1,0 +1,1 @@
+"""The ``cloakview`` command line: parses, calls :mod:`cloakview.render.api`, prints."""

@@ -1,0 +1,84 @@
+"""Writing output files safely: a temporary file in the same folder, then a rename.
+
+An interrupted run never leaves a half-written file and never destroys an older good one.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import os
+import platform
+import tempfile
+import time
+from importlib import metadata
+from pathlib import Path
+
+import imageio.v3 as iio
+import numpy as np
+
+
+def atomic_write(path: Path, write) -> None:
+    """Call ``write(temp_path)`` then rename the temporary file onto ``path``."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    handle, temp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix,
+                                    dir=path.parent)
+    os.close(handle)
+    try:
+        write(temp)
+        os.chmod(temp, 0o644)  # mkstemp makes 0600; outputs are for sharing
+        os.replace(temp, path)
+    except BaseException:
+        if os.path.exists(temp):
+            os.unlink(temp)
+        raise
+
+
+def write_png(path: Path, image_uint8: np.ndarray) -> None:
+    """Write an 8-bit image as PNG via a temporary file and a rename."""
+    atomic_write(Path(path), lambda temp: iio.imwrite(temp, image_uint8, extension=".png"))
+
+
+def write_json(path: Path, data) -> None:
+    """Write JSON via a temporary file and a rename."""
+    def write(temp):
+        with open(temp, "w", encoding="utf-8") as handle:
+            json.dump(data, handle, indent=2, allow_nan=False)
+            handle.write("\n")
+    atomic_write(Path(path), write)
+
+
+def write_text(path: Path, text: str) -> None:
+    """Write text via a temporary file and a rename."""
+    def write(temp):
+        with open(temp, "w", encoding="utf-8") as handle:
+            handle.write(text)
+    atomic_write(Path(path), write)
+
+
+def write_csv(path: Path, rows: list[dict], columns=None) -> None:
+    """Rows of dicts as CSV (columns: given, else the first row's keys), written safely."""
+    buffer = io.StringIO()
+    writer = csv.DictWriter(buffer, fieldnames=list(columns or rows[0]), lineterminator="\n",
+                            extrasaction="ignore")
+    writer.writeheader()
+    writer.writerows(rows)
+    write_text(path, buffer.getvalue())
+
+
+def program_version() -> str:
+    """The installed cloakview version (from the package metadata)."""
+    return metadata.version("cloakview")
+
+
+def run_record(out_dir: Path, command: str, options: dict, started: float, **extra) -> None:
+    """Write ``run.json``: what produced this folder (command, options, version, timings).
+
+    ``started`` is a :func:`time.perf_counter` reading taken when the work began.
+    """
+    write_json(Path(out_dir) / "run.json", {
+        "program": "cloakview", "version": program_version(), "command": command,
+        "options": options, "python": platform.python_version(),
+        "machine": platform.machine(),
+        "seconds": round(time.perf_counter() - started, 3), **extra})

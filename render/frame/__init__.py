@@ -1,0 +1,1 @@
+"""One frame: eye rays, where they land, compositing in linear light, views and metrics."""

@@ -1,0 +1,124 @@
+"""The visitor's eye as a camera: one ray per sample (pixel x supersample x pupil point).
+
+The eye is a pinhole, or a round pupil sampled on a Vogel spiral with every sample
+ray aimed through the same point on the plane of focus (the look-at distance), so
+that things nearer or farther than that blur as they do for an eye.
+
+References
+----------
+.. [1] H. Vogel, "A better way to construct the sunflower head", Mathematical
+   Biosciences 44, 179-189 (1979): evenly spread points on a disc.
+.. [2] M. Pharr, W. Jakob, G. Humphreys, Physically Based Rendering, 3rd ed.
+   (2016), sec. 6.2.3: thin-lens camera model (focus plane, lens samples).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from cloakview.optics.trace import Rays
+from cloakview.render.scene.model import Placement, Viewer
+
+
+@dataclass(frozen=True)
+class SampleGrid:
+    """Shape of the sample array: pupil points x rows x columns (rows = height x s)."""
+
+    pupil: int
+    rows: int
+    columns: int
+    supersample: int
+
+    @property
+    def count(self) -> int:
+        """Number of rays."""
+        return self.pupil * self.rows * self.columns
+
+
+def _basis(viewer: Viewer) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Forward, right and up unit vectors of the eye in the room frame."""
+    eye = np.asarray(viewer.eye_mm, float)
+    forward = np.asarray(viewer.look_at_mm, float) - eye
+    forward /= np.linalg.norm(forward)
+    world_up = np.array([0.0, 1.0, 0.0])
+    right = np.cross(world_up, forward)
+    if np.linalg.norm(right) < 1e-9:  # looking straight up or down
+        right = np.array([1.0, 0.0, 0.0])
+    right /= np.linalg.norm(right)
+    return forward, right, np.cross(forward, right)
+
+
+def pixel_directions(viewer: Viewer, supersample: int, row_range=None,
+                     basis=None) -> np.ndarray:
+    """Pinhole unit directions (rows, columns, 3), row 0 at the top.
+
+    ``row_range`` = (first, stop) limits the sample rows (of height x supersample);
+    ``basis`` = (forward, right, up) gives the eye's axes in the wanted frame (default
+    the room frame).
+    """
+    forward, right, up = basis if basis is not None else _basis(viewer)
+    cols, rows = viewer.width_px * supersample, viewer.height_px * supersample
+    first, stop = row_range or (0, rows)
+    half = math.tan(math.radians(viewer.fov_deg) / 2.0)
+    px = ((np.arange(cols) + 0.5) / cols * 2.0 - 1.0) * half
+    py = (1.0 - (np.arange(first, stop) + 0.5) / rows * 2.0) * half * rows / cols
+    # The basis is orthonormal, so |forward + px right + py up|^2 = 1 + px^2 + py^2.
+    scale = 1.0 / np.sqrt(1.0 + px[None, :] ** 2 + py[:, None] ** 2)
+    d = np.empty((len(py), cols, 3))
+    for k in range(3):
+        d[..., k] = (forward[k] + px[None, :] * right[k] + py[:, None] * up[k]) * scale
+    return d
+
+
+def _pupil_offsets(viewer: Viewer) -> np.ndarray:
+    """Pupil sample points (P, 2) in mm, Vogel spiral [1]."""
+    count = viewer.pupil_samples if viewer.pupil_mm > 0 else 1
+    if count == 1:
+        return np.zeros((1, 2))
+    k = np.arange(count)
+    radius = viewer.pupil_mm / 2.0 * np.sqrt((k + 0.5) / count)
+    angle = k * math.pi * (3.0 - math.sqrt(5.0))
+    return np.stack([radius * np.cos(angle), radius * np.sin(angle)], axis=1)
+
+
+def camera_rays(viewer: Viewer, placement: Placement, supersample: int,
+                wavelength_nm: float, row_range=None) -> tuple[Rays, SampleGrid]:
+    """Rays for every sample of ``viewer``, in the device frame.
+
+    Parameters
+    ----------
+    viewer : Viewer
+        Eye point, gaze, field of view [deg], image size, pupil [mm].
+    placement : Placement
+        Where the device stands in the room.
+    supersample : int
+        Samples per pixel along each axis.
+    wavelength_nm : float
+        Wavelength given to every ray [nm].
+    row_range : tuple of int, optional
+        (first, stop) sample rows to make, for rendering in bands.
+    """
+    basis = tuple(placement.directions_to_device(v) for v in _basis(viewer))
+    directions = pixel_directions(viewer, supersample, row_range, basis)
+    rows, cols = directions.shape[:2]
+    offsets = _pupil_offsets(viewer)
+    eye = placement.to_device(np.asarray(viewer.eye_mm, float))
+    if len(offsets) == 1:
+        count = rows * cols
+        d = directions.reshape(-1, 3)
+        rays = Rays(np.full(count, eye[0]), np.full(count, eye[1]), np.full(count, eye[2]),
+                    np.ascontiguousarray(d[:, 0]), np.ascontiguousarray(d[:, 1]),
+                    np.ascontiguousarray(d[:, 2]), np.full(count, float(wavelength_nm)),
+                    np.ones(count))
+        return rays, SampleGrid(1, rows, cols, supersample)
+    forward, right, up = (placement.directions_to_device(v) for v in _basis(viewer))
+    focus = np.linalg.norm(np.asarray(viewer.look_at_mm, float) - np.asarray(viewer.eye_mm))
+    # Every pupil sample aims at the pinhole ray's point on the plane of focus [2].
+    targets = eye + directions * (focus / (directions @ forward))[..., None]
+    starts = eye + offsets[:, 0, None] * right + offsets[:, 1, None] * up
+    origins = np.broadcast_to(starts[:, None, None, :], (len(offsets), rows, cols, 3))
+    rays = Rays.from_vectors(origins.reshape(-1, 3), (targets[None] - origins).reshape(-1, 3),
+                             wavelength_nm)
+    return rays, SampleGrid(len(offsets), rows, cols, supersample)

@@ -1,0 +1,217 @@
+"""Compositing: sample each layer's picture, blend front to back in linear light, add colour.
+
+Textures are premultiplied linear RGBA. Each ray takes the colour of the layers it
+crossed, nearest first, each weighted by the light that gets through the layers in
+front of it ("over" operator), times the Fresnel throughput the ray carried to that
+layer; what stays uncovered takes the colour of what the ray finally struck
+(panel, tube or lens mount, shaded) or of the room beyond.
+
+Pictures seen smaller than their pixels are sampled from a mip pyramid at the
+level matching each ray's footprint, blended between the two nearest levels.
+
+References
+----------
+.. [1] T. Porter and T. Duff, "Compositing digital images", SIGGRAPH 1984,
+   Computer Graphics 18(3), 253-259 (the "over" operator, premultiplied alpha).
+.. [2] L. Williams, "Pyramidal parametrics", SIGGRAPH 1983, Computer Graphics
+   17(3), 1-11 (mip-mapping).
+.. [3] IEC 61966-2-1 (sRGB): compositing in linear light, encoding at the end.
+"""
+
+from __future__ import annotations
+
+import math
+
+import cv2
+import numpy as np
+from cloakview.optics.trace import MOUNT, PANEL, PASSED
+from cloakview.render.frame.mapper import RayMap
+from cloakview.render.scene.model import Scene
+
+_REMAP_COLUMNS = 4096
+#: Shading of the housing: lit from above and in front, ambient floor (our own choice).
+_LIGHT = np.array([0.3, 1.0, -0.6]) / np.linalg.norm([0.3, 1.0, -0.6])
+_AMBIENT = 0.35
+#: Light falls off inside the tube with depth over about this length [mm] (our own choice).
+_TUBE_DEPTH_MM = 600.0
+
+
+class TexturePyramids:
+    """Mip pyramids of the scene's layer pictures, built once per scene [2]."""
+
+    def __init__(self, scene: Scene):
+        self.levels = {}
+        for layer in scene.layers:
+            level = [layer.texture]
+            while min(level[-1].shape[:2]) >= 16 and len(level) < 12:
+                level.append(cv2.pyrDown(level[-1]))
+            self.levels[layer.name] = level
+
+
+def _remap(texture: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """Bilinear samples (N, 4) of ``texture`` at pixel coordinates; 0 outside."""
+    n = len(u)
+    if n == 0:
+        return np.zeros((0, 4), np.float32)
+    rows = -(-n // _REMAP_COLUMNS)
+    maps = np.full((2, rows * _REMAP_COLUMNS), -10.0, np.float32)  # -10: off the picture
+    maps[0, :n] = u
+    maps[1, :n] = v
+    np.copyto(maps, np.float32(-10.0), where=np.isnan(maps))
+    sampled = cv2.remap(texture, maps[0].reshape(rows, -1), maps[1].reshape(rows, -1),
+                        interpolation=cv2.INTER_LINEAR, borderMode=cv2.BORDER_CONSTANT,
+                        borderValue=(0, 0, 0, 0))
+    return sampled.reshape(-1, 4)[:n]
+
+
+def _neighbour_span(values: np.ndarray, axis: int) -> np.ndarray:
+    """|Difference| to the next sample along ``axis``, else to the previous one.
+
+    NaN only where both neighbours are missing.
+    """
+    d = np.abs(np.diff(values, axis=axis))
+    span = np.empty_like(values)
+    head = [slice(None)] * values.ndim
+    tail = [slice(None)] * values.ndim
+    last = [slice(None)] * values.ndim
+    head[axis], tail[axis], last[axis] = slice(None, -1), slice(1, None), -1
+    span[tuple(head)] = d
+    span[tuple(last)] = np.nan
+    np.fmax(span[tuple(tail)], d, out=span[tuple(tail)])
+    return span
+
+
+def footprint_levels(u: np.ndarray, v: np.ndarray, grid_shape) -> np.ndarray:
+    """Mip level per ray from how far apart neighbouring samples land [texels] [2]."""
+    footprint = None
+    for values in (u.reshape(grid_shape), v.reshape(grid_shape)):
+        for axis in (-1, -2):
+            span = _neighbour_span(values, axis)
+            footprint = span if footprint is None else np.fmax(footprint, span, out=footprint)
+    # fmax turns NaN (no neighbour on this layer) and spans below a texel into 1: level 0.
+    return np.log2(np.fmax(footprint.reshape(-1), np.float32(1.0)))
+
+
+def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
+                 level: np.ndarray) -> np.ndarray:
+    """Premultiplied RGBA (N, 4) of the rays at texture coordinates ``u``, ``v``.
+
+    ``level`` is each ray's mip level (see :func:`footprint_levels`), blended between
+    the two nearest pyramid levels [2].
+    """
+    if float(np.nanmax(level, initial=0.0)) <= 0.0:
+        return _remap(pyramid[0], u, v)  # nothing minified: one bilinear pass, no gathers
+    out = np.zeros((len(u), 4), np.float32)
+    rows = np.flatnonzero(~np.isnan(u))
+    if not len(rows):
+        return out
+    level = np.minimum(level[rows], len(pyramid) - 1)
+    top = int(math.ceil(level.max()))
+    for k in range(top + 1):
+        weight = 1.0 - np.abs(level - k)
+        use = weight > 0.0
+        if not use.any():
+            continue
+        pick = rows[use] if top else rows
+        scale = np.float32(2.0**-k)
+        samples = _remap(pyramid[k], (u[pick] + 0.5) * scale - 0.5,
+                         (v[pick] + 0.5) * scale - 0.5)
+        if top:
+            samples *= weight[use, None]
+        out[pick] += samples
+    return out
+
+
+def _housing_colour(scene: Scene, ray_map: RayMap) -> np.ndarray:
+    """Linear RGB (N, 3) of what each ray finally struck (room colour if nothing).
+
+    Each ray gets a palette entry (room, panel, tube, mount) and a shade factor:
+    Lambert shading of the tube's outside, light falling off with depth inside.
+    """
+    r = ray_map.result
+    palette = np.stack([scene.settings.backdrop_rgb, scene.panel_rgb, scene.tube_rgb,
+                        scene.tube_rgb * 1.25]).astype(np.float32)
+    entry = np.zeros(len(r.fate), np.intp)
+    shade = np.ones(len(r.fate), np.float32)
+    panel = r.fate == PANEL
+    entry[panel] = 1
+    shade[panel] = _AMBIENT + (1 - _AMBIENT) * max(0.0, -_LIGHT[2])
+    struck = np.flatnonzero((r.fate != PASSED) & ~panel)
+    if struck.size:
+        inside = r.entered[struck]
+        outside = struck[~inside]
+        entry[outside] = 2
+        x, y = r.x[outside], r.y[outside]
+        lambert = np.clip((x * _LIGHT[0] + y * _LIGHT[1]) / np.hypot(x, y), 0.0, 1.0)
+        shade[outside] = _AMBIENT + (1 - _AMBIENT) * lambert
+        within = struck[inside]
+        entry[within] = np.where(r.fate[within] == MOUNT, 3, 2)
+        depth = np.maximum(r.z[within] - scene.housing.panel_z_mm, 0.0)
+        shade[within] = _AMBIENT * 0.6 + (1 - _AMBIENT * 0.6) * np.exp(-depth / _TUBE_DEPTH_MM)
+        shade[struck] *= r.throughput[struck]
+    colour = palette[entry]
+    colour *= shade[:, None]
+    return colour
+
+
+def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
+                   grid_shape=None, levels: dict | None = None):
+    """Linear RGB (N, 3) of every ray, hidden-object weight (N,) and mip levels used [1].
+
+    Parameters
+    ----------
+    grid_shape : tuple, optional
+        (pupil, rows, columns) of the sample grid: texture footprints come from
+        neighbouring samples.
+    levels : dict, optional
+        Mip level per ray for each layer name, instead of ``grid_shape`` (for a
+        subset of a grid whose levels are already known).
+    """
+    n = len(ray_map.result.fate)
+    rgb = np.zeros((n, 3), np.float32)
+    clear = np.ones(n, np.float32)
+    hidden = np.zeros(n, np.float32)
+    used = {}
+    for hit in ray_map.hits:  # z order: nearest first
+        name = hit.layer.name
+        used[name] = levels[name] if levels is not None else footprint_levels(
+            hit.u, hit.v, grid_shape)
+        rgba = sample_layer(pyramids.levels[name], hit.u, hit.v, used[name])
+        rgba *= np.float32(hit.layer.opacity)
+        alpha = rgba[:, 3]
+        tp = hit.throughput.astype(np.float32)
+        np.copyto(tp, np.float32(0.0), where=np.isnan(tp))
+        rgb += (clear * tp)[:, None] * rgba[:, :3]
+        if hit.layer.role == "hidden":
+            hidden += clear * alpha
+        clear *= 1.0 - alpha
+    rgb += clear[:, None] * _housing_colour(scene, ray_map)
+    return rgb, hidden, used
+
+
+def channel_weights(wavelengths_nm) -> np.ndarray:
+    """Weights (K, 3) that turn K single-wavelength images into R, G, B.
+
+    Each wavelength feeds the channel whose band holds it (blue below 490 nm, green to
+    590 nm, red above: our own split, close to where the sRGB primaries' colour-matching
+    lobes cross, common practice); a channel whose band holds no wavelength takes the
+    nearest one. Each channel's weights sum to 1, so a grey picture stays grey.
+    """
+    w = np.asarray(wavelengths_nm, float)
+    bands = [(0.0, 490.0, 455.0), (490.0, 590.0, 545.0), (590.0, 1e9, 620.0)]
+    weights = np.zeros((len(w), 3))
+    for c, (lo, hi, centre) in enumerate(reversed(bands)):  # columns R, G, B
+        inside = (w >= lo) & (w < hi)
+        if inside.any():
+            weights[inside, c] = 1.0 / inside.sum()
+        else:
+            weights[np.argmin(np.abs(w - centre)), c] = 1.0
+    return weights
+
+
+def resolve_samples(samples: np.ndarray, grid_shape, supersample: int) -> np.ndarray:
+    """Average per-ray values (N,) or (N, C) over pupil points and supersamples: (H, W, C)."""
+    pupil, rows, cols = grid_shape
+    s = supersample
+    blocks = samples.reshape(pupil, rows // s, s, cols // s, s, -1)
+    return blocks.mean(axis=(0, 2, 4), dtype=np.float64).astype(np.float32)

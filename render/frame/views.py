@@ -1,0 +1,223 @@
+"""Render one viewer's views and measure them.
+
+Views: ``cloaked`` (the exhibit as built), ``naked`` (the same housing and objects
+with the lenses taken out), ``reference`` (the room with no device and no hidden
+objects: what a perfect cloak would show), ``difference`` (a heat map of cloaked
+against reference) and ``vanish`` (the cloaked view with the object's outline as it
+would be seen without lenses, and which parts of it vanish or still show).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import time
+from dataclasses import dataclass
+
+import numpy as np
+from cloakview.optics.materials import nearest_to_d_line
+from cloakview.optics.surfaces import Refracting
+from cloakview.optics.trace import Rays
+from cloakview.render.color import linear_to_srgb, to_uint8
+from cloakview.render.frame import metrics as m
+from cloakview.render.frame import overlays
+from cloakview.render.frame.camera import camera_rays
+from cloakview.render.frame.composite import (
+    TexturePyramids,
+    channel_weights,
+    composite_rays,
+    resolve_samples,
+)
+from cloakview.render.frame.mapper import SETUPS, map_rays
+from cloakview.render.scene.model import Scene, Viewer
+
+VIEW_NAMES = ("cloaked", "reference", "naked", "difference", "vanish")
+
+@dataclass
+class ViewerRender:
+    """Images (8-bit sRGB) and metrics of one viewer."""
+
+    viewer: Viewer
+    images: dict[str, np.ndarray]
+    metrics: dict
+    seconds: float
+
+
+#: Rays per band: frames are traced and composited in bands of rows of about this many
+#: rays, so a 4K frame stays within a few hundred megabytes (our own choice).
+BAND_RAYS = 400_000
+
+
+@dataclass
+class RayRecord:
+    """What the metrics need of the kept rays at one wavelength, over all bands.
+
+    ``index`` numbers the rays of the frame (the same in every view); the cloaked view
+    keeps only rays that pass through the device, the others keep every ray.
+    """
+
+    index: np.ndarray
+    throughput: np.ndarray
+    wall_x: np.ndarray
+    wall_y: np.ndarray
+
+
+@dataclass
+class TracedView:
+    """One traced view: linear image, per-pixel coverages and per-ray records."""
+
+    image: np.ndarray
+    hidden: np.ndarray
+    entered: np.ndarray
+    through: np.ndarray
+    records: dict[float, RayRecord]
+
+
+def _bands(viewer: Viewer, supersample: int):
+    rows = viewer.height_px * supersample
+    per_row = viewer.width_px * supersample * max(viewer.pupil_samples, 1)
+    step = max(supersample, BAND_RAYS // per_row // supersample * supersample)
+    return [(r, min(r + step, rows)) for r in range(0, rows, step)]
+
+
+def _subset(rays: Rays, rows: np.ndarray) -> Rays:
+    return Rays(*(getattr(rays, f.name)[rows] for f in dataclasses.fields(Rays)))
+
+
+def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample) -> TracedView:
+    """Trace and composite one view band by band; keep what the metrics need.
+
+    With real lenses, the design wavelength is traced first for every ray; the other
+    wavelengths re-trace only the rays that entered the device (the rest meet no
+    glass, so their colour does not depend on wavelength) and reuse its mip levels.
+    """
+    weights = channel_weights(wavelengths)
+    dispersive = setup.lenses and any(isinstance(s, Refracting) for s in scene.system.surfaces)
+    design = nearest_to_d_line(wavelengths)
+    order = sorted(wavelengths if dispersive else (design,), key=lambda w: w != design)
+    kept = {design, min(order), max(order)}
+    wall = _front_background(scene).name
+    h, w = viewer.height_px, viewer.width_px
+    image = np.zeros((h, w, 3), np.float32)
+    cover = {name: np.zeros((h, w), np.float32) for name in ("hidden", "entered", "through")}
+    parts = {wl: [] for wl in kept}
+    offset = 0
+    for r0, r1 in _bands(viewer, supersample):
+        rays, grid = camera_rays(viewer, scene.placement, supersample, design, (r0, r1))
+        shape = (grid.pupil, grid.rows, grid.columns)
+        rows = slice(r0 // supersample, r1 // supersample)
+        ray_map = map_rays(scene, rays, setup)
+        base, hidden, levels = composite_rays(scene, ray_map, pyramids, shape)
+        entered = np.flatnonzero(ray_map.result.entered)
+        cover["hidden"][rows] = resolve_samples(hidden, shape, supersample)[..., 0]
+        for name, values in (("entered", ray_map.result.entered),
+                             ("through", ray_map.through_device)):
+            cover[name][rows] = resolve_samples(values.astype(np.float32), shape,
+                                                supersample)[..., 0]
+        for wl in order:
+            if wl == design:
+                rgb, sub_map, ids = base, ray_map, np.arange(len(rays))
+            else:
+                sub = _subset(rays, entered)
+                sub.wavelength_nm[:] = wl
+                sub_map = map_rays(scene, sub, setup)
+                sub_rgb, _, _ = composite_rays(scene, sub_map, pyramids, levels={
+                    name: level[entered] for name, level in levels.items()})
+                rgb = base.copy()
+                rgb[entered] = sub_rgb
+                ids = entered
+            weight = weights[list(wavelengths).index(wl)] if dispersive else 1.0
+            image[rows] += resolve_samples(rgb, shape, supersample) * weight
+            if wl in kept:
+                through = np.flatnonzero(sub_map.through_device) if setup.lenses else slice(None)
+                crossing = sub_map.result.crossings[wall]
+                parts[wl].append((offset + ids[through], sub_map.result.throughput[through],
+                                  crossing.x[through], crossing.y[through]))
+        offset += grid.count
+    records = {wl: RayRecord(*(np.concatenate(column) for column in zip(*chunks,
+                                                                        strict=True)))
+               for wl, chunks in parts.items()}
+    return TracedView(image, cover["hidden"], cover["entered"], cover["through"], records)
+
+
+def _front_background(scene: Scene):
+    return min((layer for layer in scene.layers if layer.role == "background"),
+               key=lambda layer: layer.z_mm)
+
+
+def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None = None,
+                  views=VIEW_NAMES, supersample: int | None = None,
+                  progress=None) -> ViewerRender:
+    """Render and measure ``viewer``'s views of ``scene``.
+
+    Parameters
+    ----------
+    views : sequence of str
+        Which images to return (all three traces run regardless: the metrics need them).
+    supersample : int, optional
+        Override the scene's supersampling.
+    progress : callable, optional
+        Called with a short label after each traced view.
+    """
+    start = time.perf_counter()
+    pyramids = pyramids or TexturePyramids(scene)
+    ss = supersample or scene.settings.supersample
+    traced = {}
+    for name, setup in SETUPS.items():
+        traced[name] = _trace_view(scene, viewer, setup, scene.settings.wavelengths_nm,
+                                   pyramids, ss)
+        if progress:
+            progress(f"{viewer.name}: {name}")
+    srgb = {name: linear_to_srgb(t.image) for name, t in traced.items()}
+    metrics = _measure(scene, viewer, traced, srgb)
+    images = {}
+    for name in views:
+        if name in traced:
+            images[name] = to_uint8(traced[name].image)
+        elif name == "difference":
+            images[name] = overlays.difference_image(srgb["cloaked"], srgb["reference"],
+                                             traced["cloaked"].entered >= 0.5)
+        elif name == "vanish":
+            images[name] = overlays.vanish_image(srgb["cloaked"], traced["cloaked"].hidden,
+                                         traced["naked"].hidden)
+    return ViewerRender(viewer, images, metrics, time.perf_counter() - start)
+
+
+def _measure(scene, viewer, traced, srgb) -> dict:
+    cloaked = traced["cloaked"]
+    records = cloaked.records
+    seen = records[nearest_to_d_line(list(records))]
+    ref = next(iter(traced["reference"].records.values()))
+    through_px = cloaked.through >= 0.999
+    hidden, ratio = m.hidden_fraction(cloaked.hidden, traced["naked"].hidden)
+    wall = _front_background(scene)
+    eye = scene.placement.to_device(np.asarray(viewer.eye_mm, float))
+    rx, ry = ref.wall_x[seen.index], ref.wall_y[seen.index]
+    ok = ~np.isnan(seen.wall_x) & ~np.isnan(rx)
+    shift = m.angular_shift_arcmin(eye, seen.wall_x[ok], seen.wall_y[ok], rx[ok], ry[ok],
+                                   wall.z_mm)
+    shift_mm = np.hypot(seen.wall_x[ok] - rx[ok], seen.wall_y[ok] - ry[ok])
+    fringe = 0.0
+    if len(records) > 1:
+        a, b = records[min(records)], records[max(records)]
+        _, ia, ib = np.intersect1d(a.index, b.index, assume_unique=True, return_indices=True)
+        spread = m.angular_shift_arcmin(eye, a.wall_x[ia], a.wall_y[ia], b.wall_x[ib],
+                                        b.wall_y[ib], wall.z_mm)
+        spread = spread[np.isfinite(spread)]
+        fringe = float(np.percentile(spread, 95)) if spread.size else None
+    any_through = seen.index.size > 0
+    result = {
+        "viewer": viewer.name,
+        "eye_mm": list(viewer.eye_mm),
+        "wavelengths_nm": list(scene.settings.wavelengths_nm),
+        "hidden_fraction": hidden,
+        "object_seen_ratio": ratio,
+        "background_ssim": m.background_ssim(srgb["cloaked"], srgb["reference"], through_px),
+        "background_shift_arcmin": m.percentiles(shift),
+        "background_shift_mm": m.percentiles(shift_mm),
+        "transmittance": float(np.mean(seen.throughput)) if any_through else None,
+        "color_fringe_arcmin": fringe if any_through else None,
+        "through_pixels": int(through_px.sum()),
+        "background_layer": wall.name,
+    }
+    result["verdict"] = m.verdict(result)
+    return result

@@ -1,0 +1,1 @@
+"""Planning a build: lens inventories, the design search, tolerance Monte Carlo."""

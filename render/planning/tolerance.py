@@ -1,0 +1,148 @@
+"""Tolerance analysis: how precisely the lenses must be placed, by Monte Carlo over builds.
+
+Each build moves every lens along the axis, decenters and tilts it, and changes its
+focal length, each error drawn uniformly within plus or minus its tolerance (our own
+choice of distribution: a fabricator's "within +-x"), from a seeded generator so a run
+can be repeated. Each build is rendered from the scene's design viewer and measured;
+it *passes* when the effect works there (at least 90 % of the object hidden, median
+background shift at most 2 arcminutes). Builds are jobs on the sweep map.
+
+Focal-length errors scale both radii of a thick lens (its thickness kept), which scales
+its focal length by very nearly the same factor (thin-lens lensmaker's equation,
+Hecht, Optics, ch. 6); an ideal lens's focal length is scaled directly.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+from dataclasses import dataclass
+
+import numpy as np
+from cloakview.optics.lenses import ThickLens, ThinLens
+from cloakview.optics.system import LensSystem
+from cloakview.render.frame.views import render_viewer
+from cloakview.render.sweeps.jobs import run_jobs
+from cloakview.render.sweeps.sightlines import classify
+
+KEYS = ("axial_mm", "decenter_mm", "tilt_deg", "focal_pct")
+LABELS = {"axial_mm": "axial position [mm]", "decenter_mm": "decenter [mm]",
+          "tilt_deg": "tilt [deg]", "focal_pct": "focal length [%]"}
+SCAN = (0.25, 0.5, 1.0, 2.0, 4.0)
+TARGET_YIELD = 0.95
+
+
+@dataclass(frozen=True)
+class Tolerances:
+    """Plus-or-minus limits of each lens's placement and focal-length error."""
+
+    axial_mm: float = 0.0
+    decenter_mm: float = 0.0
+    tilt_deg: float = 0.0
+    focal_pct: float = 0.0
+
+
+def _scaled(lens, factor: float):
+    if isinstance(lens, ThinLens):
+        return dataclasses.replace(lens, focal_length_mm=lens.focal_length_mm * factor)
+    assert isinstance(lens, ThickLens)
+    return dataclasses.replace(lens, r1_mm=lens.r1_mm * factor, r2_mm=lens.r2_mm * factor)
+
+
+def perturbed(system: LensSystem, tol: Tolerances, rng: np.random.Generator) -> LensSystem:
+    """The system as one build might come out."""
+    lenses = []
+    for placed in system.lenses:
+        u = rng.uniform(-1.0, 1.0, 6)
+        angle = np.pi * u[1]
+        radius = tol.decenter_mm * abs(u[2])
+        lens = _scaled(placed.lens, 1.0 + tol.focal_pct / 100.0 * u[5])
+        lenses.append(dataclasses.replace(
+            placed, lens=lens, z_mm=placed.z_mm + tol.axial_mm * u[0],
+            decenter_mm=(float(radius * np.cos(angle)), float(radius * np.sin(angle)))
+            if radius else (0.0, 0.0),
+            tilt_deg=(float(tol.tilt_deg * u[3]), float(tol.tilt_deg * u[4]))
+            if tol.tilt_deg else (0.0, 0.0)))
+    return dataclasses.replace(system, lenses=tuple(lenses))
+
+
+def build_job(state, job: dict) -> dict:
+    """Sweep job: render one build from the design viewer."""
+    scene, pyramids = state
+    tol = Tolerances(**job["tol"])
+    rng = np.random.default_rng(job["seed"])
+    built = dataclasses.replace(scene, system=perturbed(scene.system, tol, rng))
+    viewer = dataclasses.replace(scene.viewers[0], width_px=job["size"][0],
+                                 height_px=job["size"][1])
+    m = render_viewer(built, viewer, pyramids, views=(), supersample=1).metrics
+    shift = m["background_shift_arcmin"]
+    return {"seed": job["seed"], **job["tol"], "hidden_fraction": m["hidden_fraction"],
+            "shift_median_arcmin": shift and shift["median"], "verdict": m["verdict"],
+            "passes": classify(m) == "works"}
+
+
+def jobs_for(tol: Tolerances, builds: int, seed: int, size) -> list[dict]:
+    """Seeded jobs for ``builds`` builds at ``tol``."""
+    return [{"tol": dataclasses.asdict(tol), "seed": seed * 100_003 + i, "size": list(size)}
+            for i in range(builds)]
+
+
+def plan(tol: Tolerances, builds: int, seed: int, size) -> dict[str, list[dict]]:
+    """All job groups of an analysis.
+
+    The build as specified, and each tolerance alone scaled by :data:`SCAN`.
+    """
+    groups = {"all": jobs_for(tol, builds, seed, size)}
+    for key in KEYS:
+        value = getattr(tol, key)
+        if value <= 0:
+            continue
+        for factor in SCAN:
+            alone = Tolerances(**{key: value * factor})
+            groups[f"{key}x{factor:g}"] = jobs_for(alone, builds, seed, size)
+    return groups
+
+
+def summarise(tol: Tolerances, groups: dict[str, list[dict]]) -> dict:
+    """Yield, sensitivity ranking and the tolerances that keep 95 % yield."""
+    def share(rows):
+        return sum(r["passes"] for r in rows) / len(rows)
+
+    sensitivity, keep = [], {}
+    for key in KEYS:
+        value = getattr(tol, key)
+        if value <= 0:
+            continue
+        alone = share(groups[f"{key}x1"])
+        sensitivity.append({"tolerance": key, "label": LABELS[key], "value": value,
+                            "yield_alone": alone})
+        ok = [value * f for f in SCAN if share(groups[f"{key}x{f:g}"]) >= TARGET_YIELD]
+        keep[key] = {"largest_tested_with_95_yield": max(ok) if ok else None,
+                     "smallest_tested": value * SCAN[0], "scan": {
+                         f"{value * f:g}": share(groups[f"{key}x{f:g}"]) for f in SCAN}}
+    sensitivity.sort(key=lambda s: s["yield_alone"])
+    return {"tolerances": dataclasses.asdict(tol), "builds": len(groups["all"]),
+            "yield": share(groups["all"]), "sensitivity": sensitivity, "for_95_yield": keep}
+
+
+def analyse(tol: Tolerances, builds: int, seed: int, size, folder, setup, setup_args=(),
+            workers=None, progress=None) -> tuple[dict, list]:
+    """Run every build group of :func:`plan` on the job map; return (summary, builds).
+
+    ``setup(*setup_args)`` gives the worker state (scene, texture pyramids); builds that
+    two groups share run once. Results are kept in ``folder`` (resumable).
+    """
+    groups = plan(tol, builds, seed, size)
+    unique = {}
+    for jobs in groups.values():
+        for job in jobs:
+            unique.setdefault(json.dumps(job, sort_keys=True), job)
+    jobs = list(unique.values())
+    if progress:
+        progress.total = len(jobs)
+    results = run_jobs(build_job, jobs, folder, setup, setup_args, workers=workers,
+                       progress=progress)
+    by_job = {json.dumps(j, sort_keys=True): r for j, r in zip(jobs, results, strict=True)}
+    rows = {name: [by_job[json.dumps(j, sort_keys=True)] for j in group]
+            for name, group in groups.items()}
+    return summarise(tol, rows), rows["all"]
