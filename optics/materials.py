@@ -228,7 +228,7 @@ MATERIALS: dict[str, Material] = {
 
 
 def material_by_name(name: str, key: str = "material") -> Material:
-    """Return a named material, or one built from ``"ND/VD"`` (e.g. ``"1.5168/64.2"``).
+    """Return a named material, or one built from ``"ND/VD"`` (e.g. ``"1.52/60"``).
 
     A material given as ``ND/VD`` uses :meth:`Cauchy.from_abbe` and a density of
     2.5 g/cm^3 (crown-glass class, common practice).
@@ -251,4 +251,4 @@ def material_by_name(name: str, key: str = "material") -> Material:
         if nd is not None:
             return Material(text, Cauchy.from_abbe(nd, vd), 2.5, "user n_d and V_d")
     known = ", ".join(sorted(MATERIALS))
-    raise InputError(key, name, f"unknown material; use one of {known}, or ND/VD like 1.5168/64.2")
+    raise InputError(key, name, f"unknown material; use one of {known}, or ND/VD like 1.52/60")

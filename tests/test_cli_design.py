@@ -67,7 +67,8 @@ def test_bad_input_is_one_line_and_exit_2(capsys, args, needle):
 
 
 def test_console_script_has_no_traceback():
-    proc = subprocess.run([sys.executable, "-m", "cloakview.render.cli.main", "design", "--f-outer", "10",
+    proc = subprocess.run([sys.executable, "-m", "cloakview.render.cli.main", "design",
+                           "--f-outer", "10",
                            "--f-inner", "20"], capture_output=True, text=True)
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr and proc.stdout == ""

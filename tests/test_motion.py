@@ -94,8 +94,8 @@ def test_sightline_map_of_symmetric_scene_is_symmetric(tmp_path):
     xs = sl.grid(-160, 160, 20, "x")
     ds = [590.0, 800.0]
     jobs = sl.floor_jobs(xs, ds, [1150.0], (48, 32))
-    rows = run_jobs(sl.measure_point, jobs, tmp_path / "jobs", sl.setup_worker,
-                    (path, False, None), workers=1)
+    rows, _ = run_jobs(sl.measure_point, jobs, "t", sl.setup_worker, (path, False, None),
+                       workers=1, cache=tmp_path / "jobs")
     for d in ds:
         classes = [r["class"] for r in rows if r["d"] == d]
         assert classes == classes[::-1]
@@ -112,16 +112,16 @@ def test_sightline_map_of_symmetric_scene_is_symmetric(tmp_path):
 def test_sweep_resumes_with_the_same_results(tmp_path):
     path = str(write_scene(tmp_path, layers=RING))
     jobs = sl.floor_jobs([-20.0, 0.0, 20.0], [600.0, 700.0], [1150.0], (32, 24))
-    whole = run_jobs(sl.measure_point, jobs, tmp_path / "a", sl.setup_worker,
-                     (path, False, None), workers=1)
-    run_jobs(sl.measure_point, jobs[:3], tmp_path / "b", sl.setup_worker, (path, False, None),
-             workers=1)  # "interrupted" after three jobs
-    done = sorted((tmp_path / "b").glob("*.json"))
+    whole, _ = run_jobs(sl.measure_point, jobs, "t", sl.setup_worker, (path, False, None),
+                        workers=1, cache=tmp_path / "a")
+    run_jobs(sl.measure_point, jobs[:3], "t", sl.setup_worker, (path, False, None),
+             workers=1, cache=tmp_path / "b")  # "interrupted" after three jobs
+    done = sorted((tmp_path / "b" / "jobs" / "t").glob("*.json"))
     assert len(done) == 3
     stamps = {p: p.stat().st_mtime_ns for p in done}
-    resumed = run_jobs(sl.measure_point, jobs, tmp_path / "b", sl.setup_worker,
-                       (path, False, None), workers=2)
-    assert resumed == whole
+    resumed, reused = run_jobs(sl.measure_point, jobs, "t", sl.setup_worker,
+                               (path, False, None), workers=2, cache=tmp_path / "b")
+    assert resumed == whole and reused == 3
     assert all(p.stat().st_mtime_ns == t for p, t in stamps.items())  # not redone
 
 

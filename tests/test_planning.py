@@ -51,7 +51,7 @@ def test_search_finds_the_brute_force_best_and_explains_rejections(tmp_path):
     path = _write(tmp_path, SMALL)
     items = load_inventory(path)
     constraints = planning.Constraints(max_length_mm=1500.0)
-    rows = planning.search(path, items, constraints, tmp_path / "jobs", workers=1)
+    rows, _ = planning.search(path, items, constraints, workers=1)
     # Brute force: evaluate every ordered pair directly and keep the widest acuity field.
     brute = [planning.evaluate(a, b, constraints) for a in items for b in items if a is not b
              and a.focal_length_mm > b.focal_length_mm]

@@ -6,16 +6,19 @@ import numpy as np
 from cloakview.render.frame.views import render_viewer
 from cloakview.render.planning import tolerance as tl
 from cloakview.render.scene.loader import load_scene
+from cloakview.render.sweeps.jobs import fingerprint
 from cloakview.render.sweeps.sightlines import setup_worker
 from scenes import RING, write_scene
 
 IDEAL = "ideal = true"
 
 
-def tolerance_analysis(path, tol, builds, seed, size, folder):
+def tolerance_analysis(path, tol, builds, seed, size):
     """The analysis in this process, as the ``tolerance`` command runs it."""
-    return tl.analyse(tol, builds, seed, size, folder, setup_worker, (str(path), False, None),
-                      workers=1)
+    summary, builds, _ = tl.analyse(tol, builds, seed, size, setup_worker,
+                                    (str(path), False, None),
+                                    context=fingerprint([path]), workers=1)
+    return summary, builds
 
 
 def test_zero_tolerances_reproduce_the_nominal_design(tmp_path):
@@ -23,8 +26,7 @@ def test_zero_tolerances_reproduce_the_nominal_design(tmp_path):
     scene = load_scene(path)
     rng = np.random.default_rng(3)
     assert tl.perturbed(scene.system, tl.Tolerances(), rng) == scene.system
-    summary, builds = tolerance_analysis(path, tl.Tolerances(), 6, 1, (64, 48),
-                                         tmp_path / "jobs")
+    summary, builds = tolerance_analysis(path, tl.Tolerances(), 6, 1, (64, 48))
     assert summary["yield"] == 1.0
     state = setup_worker(str(path), False, None)
     viewer = dataclasses.replace(state[0].viewers[0], width_px=64, height_px=48)
@@ -53,7 +55,7 @@ def test_yield_falls_as_a_tolerance_grows(tmp_path):
     yields = []
     for decenter in (0.0, 0.5, 2.0, 6.0):
         summary, _ = tolerance_analysis(path, tl.Tolerances(decenter_mm=decenter), 12, 5,
-                                        (48, 36), tmp_path / "jobs")
+                                        (48, 36))
         yields.append(summary["yield"])
     assert yields[0] == 1.0
     assert all(b <= a + 0.1 for a, b in zip(yields, yields[1:], strict=False))  # MC noise
@@ -63,7 +65,7 @@ def test_yield_falls_as_a_tolerance_grows(tmp_path):
 def test_sensitivity_ranks_the_tolerance_that_matters(tmp_path):
     path = write_scene(tmp_path / "s", layers=RING, render_extra=IDEAL)
     summary, _ = tolerance_analysis(path, tl.Tolerances(axial_mm=0.1, decenter_mm=5.0), 8, 2,
-                                    (48, 36), tmp_path / "jobs")
+                                    (48, 36))
     assert summary["sensitivity"][0]["tolerance"] == "decenter_mm"
     assert set(summary["for_95_yield"]) == {"axial_mm", "decenter_mm"}
     assert set(summary["for_95_yield"]["decenter_mm"]["scan"]) == {"1.25", "2.5", "5", "10",

@@ -1,7 +1,9 @@
 """Public functions for visitors in motion: walk-by videos, sight-line maps, the cloaked zone.
 
 Sweeps run on the job map (:func:`cloakview.render.sweeps.jobs.run_jobs`): one process
-per core, each finished job kept in ``out/.jobs`` so that an interrupted sweep resumes.
+per core, each finished job cached (outside ``out``) under a key that covers the scene
+file's and pictures' bytes and every option, so an interrupted sweep resumes and an edited
+scene is never answered from an old result.
 Workers load the scene from its file, so these functions take the scene file's path.
 """
 
@@ -21,7 +23,7 @@ from cloakview.render.scene.loader import load_scene
 from cloakview.render.sweeps import sightlines as sl
 from cloakview.render.sweeps import walk as wk
 from cloakview.render.sweeps import zone as zn
-from cloakview.render.sweeps.jobs import run_jobs
+from cloakview.render.sweeps.jobs import fingerprint, run_jobs
 
 #: Default sweep grids of :func:`sightlines`: (start, stop, step) [mm].
 LATERAL_RANGE_MM = (-150.0, 150.0, 10.0)
@@ -50,7 +52,7 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
          size_px: tuple[int, int] | None = None, supersample: int | None = None,
          side_by_side: bool = False, ideal: bool | None = None,
          allow_outside_paths: bool = False, workers: int | None = None,
-         progress: bool = False) -> dict:
+         fresh: bool = False, progress: bool = False) -> dict:
     """Render a walk-by: one frame per eye point, as MP4, GIF, PNG frames and a CSV.
 
     Parameters
@@ -70,6 +72,8 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
         Sideways length of a straight walk [mm]; angle swept by an arc [deg].
     seconds, fps, frames : float, float, int
         Video length [s] and frame rate [1/s]; ``frames`` overrides their product.
+    fresh : bool
+        Render every frame again instead of reusing cached results.
 
     Returns
     -------
@@ -104,8 +108,10 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
             for i, eye in enumerate(eyes)]
     bar = Progress(len(jobs), "walk-by", enabled=progress)
     setup_args = (str(scene_path), allow_outside_paths, ideal)
-    rows = run_jobs(wk.render_frame, jobs, out / ".jobs", wk.setup_worker, setup_args,
-                    workers=workers, progress=bar)
+    rows, reused = run_jobs(wk.render_frame, jobs, "walk", wk.setup_worker, setup_args,
+                            context=fingerprint(scene.sources, ideal=ideal,
+                                                allow_outside=allow_outside_paths),
+                            workers=workers, progress=bar, fresh=fresh)
     missing = [j for j in jobs if not Path(j["frame_path"]).is_file()]
     if missing:  # result cached but picture removed: draw those frames again
         state = wk.setup_worker(*setup_args)
@@ -116,6 +122,7 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
     write_csv(out / "walk.csv", rows)
     summary = {"frames": len(rows), "fps": fps,
                "works_frames": sum(r["verdict"].startswith("works") for r in rows),
+               "reused": reused,
                "mp4": str(out / "walk.mp4"), "gif": str(out / "walk.gif"),
                "csv": str(out / "walk.csv"),
                "seconds": round(time.perf_counter() - started, 2)}
@@ -147,7 +154,8 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
                lateral_range_mm=LATERAL_RANGE_MM, distance_range_mm=DISTANCE_RANGE_MM,
                height_range_mm=None, size_px: tuple[int, int] = SWEEP_SIZE_PX,
                ideal: bool | None = None, allow_outside_paths: bool = False,
-               workers: int | None = None, progress: bool = False) -> dict:
+               workers: int | None = None, fresh: bool = False,
+               progress: bool = False) -> dict:
     """Map from where on the floor, and at which eye height, the effect works.
 
     Parameters
@@ -160,6 +168,8 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
     height_range_mm : (start, stop, step), optional
         Eye heights of the elevation map [mm] (default 900 to 1800, or 400 either side
         of the axis if wider, in 25 mm steps).
+    fresh : bool
+        Render every point again instead of reusing cached results.
     out : path
         Folder for ``floor_<height>.png`` per height, ``elevation.png``,
         ``sightlines.csv``, ``sightlines.json`` and ``run.json``.
@@ -185,9 +195,11 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
     side = sl.elevation_jobs(hs, ds, size_px)
     out = Path(out)
     bar = Progress(len(floor) + len(side), "sight lines", enabled=progress)
-    rows = run_jobs(sl.measure_point, floor + side, out / ".jobs", sl.setup_worker,
-                    (str(scene_path), allow_outside_paths, ideal), workers=workers,
-                    progress=bar)
+    rows, reused = run_jobs(sl.measure_point, floor + side, "sightlines", sl.setup_worker,
+                            (str(scene_path), allow_outside_paths, ideal),
+                            context=fingerprint(scene.sources, ideal=ideal,
+                                                allow_outside=allow_outside_paths),
+                            workers=workers, progress=bar, fresh=fresh)
     floor_rows, side_rows = rows[:len(floor)], rows[len(floor):]
     by_height = {}
     for name, h in named.items():
@@ -203,7 +215,8 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
                                for name, subset in by_height.items()},
               "floor_points": {name: len(subset) for name, subset in by_height.items()},
               "recommendation": sl.recommendation(by_height, side_rows, axis),
-              "seconds": round(time.perf_counter() - started, 2), "points": rows}
+              "reused": reused, "seconds": round(time.perf_counter() - started, 2),
+              "points": rows}
     write_json(out / "sightlines.json", result)
     run_record(out, "sightlines", {"scene": str(scene_path), "heights_mm": named,
                                    "lateral_range_mm": list(lateral_range_mm),

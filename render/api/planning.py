@@ -20,6 +20,7 @@ from cloakview.render.proposal import charts
 from cloakview.render.scene.loader import load_scene
 from cloakview.render.scene.relayout import scene_with_lenses
 from cloakview.render.sweeps import sightlines as sl
+from cloakview.render.sweeps.jobs import fingerprint
 
 #: Columns of ``designs.csv`` and ``pareto.csv``.
 DESIGN_COLUMNS = ("rank", "pareto", "outer", "inner", "f_outer_mm", "f_inner_mm", "length_mm",
@@ -44,7 +45,7 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
            budget: float | None = None, distance_mm: float = 1500.0,
            viewing_box_mm=(0.0, 0.0, 0.0), min_object_mm=(0.0, 0.0),
            render_in: str | Path | None = None, workers: int | None = None,
-           progress: bool = False) -> dict:
+           fresh: bool = False, progress: bool = False) -> dict:
     """Rank four-lens designs made from a lens inventory under the planner's constraints.
 
     Parameters
@@ -64,12 +65,15 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
     render_in : path, optional
         A scene file: render the best design in it (its layers and first viewer) as
         ``top_design.png`` and ``top_design_vanish.png``.
+    fresh : bool
+        Evaluate every pair again instead of reusing cached results.
 
     Returns
     -------
     dict
         ``designs``: every pair, feasible ones first and ranked (rejected ones with the
-        reason); ``feasible``: how many; ``constraints``; ``seconds``.
+        reason); ``feasible``: how many; ``reused``: results taken from the cache;
+        ``constraints``; ``seconds``.
 
     Raises
     ------
@@ -92,7 +96,7 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
         zone_mm=check_viewing_box(viewing_box_mm), min_object_mm=need)
     out = Path(out)
     bar = Progress(search.pair_count(items), "design search", enabled=progress)
-    rows = search.search(inventory, items, constraints, out / ".jobs", workers, bar)
+    rows, reused = search.search(inventory, items, constraints, workers, bar, fresh)
     feasible = [r for r in rows if r["reason"] is None]
     if not feasible:
         raise InputError("constraints", str(inventory), search.relax_hint(rows, constraints))
@@ -100,7 +104,7 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
                                "distance_mm": distance_mm,
                                "viewing_box_mm": list(constraints.zone_mm),
                                "min_object_mm": list(need)},
-               "designs": rows, "feasible": len(feasible),
+               "designs": rows, "feasible": len(feasible), "reused": reused,
                "seconds": round(time.perf_counter() - started, 2)}
     write_csv(out / "designs.csv", rows, DESIGN_COLUMNS)
     write_json(out / "designs.json", summary)
@@ -134,7 +138,8 @@ def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
               decenter_mm: float = 0.5, tilt_deg: float = 0.5, focal_pct: float = 1.0,
               builds: int = 40, seed: int = 1, size_px: tuple[int, int] = BUILD_SIZE_PX,
               ideal: bool | None = None, allow_outside_paths: bool = False,
-              workers: int | None = None, progress: bool = False) -> dict:
+              workers: int | None = None, fresh: bool = False,
+              progress: bool = False) -> dict:
     """Monte Carlo over builds: yield, which tolerance matters most, tolerances for 95 %.
 
     Parameters
@@ -148,6 +153,8 @@ def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
         Builds per setting (1 to 10000).
     seed : int
         Random seed (0 or more): the same seed gives the same builds.
+    fresh : bool
+        Render every build again instead of reusing cached results.
     out : path
         Folder for ``tolerance.json``, ``builds.csv``, ``histograms.png``, ``run.json``.
 
@@ -163,12 +170,15 @@ def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
         raise InputError("builds", builds, "must be 1 to 10000")
     if not 0 <= seed < 2 ** 32:
         raise InputError("seed", seed, "must be a whole number from 0 to 4294967295")
-    load_scene(scene_path, allow_outside_paths=allow_outside_paths, ideal=ideal)  # check first
+    scene = load_scene(scene_path, allow_outside_paths=allow_outside_paths, ideal=ideal)
     out = Path(out)
     bar = Progress(1, "tolerance", enabled=progress)
-    summary, rows = tl.analyse(tol, builds, seed, size_px, out / ".jobs", sl.setup_worker,
-                               (str(scene_path), allow_outside_paths, ideal), workers, bar)
-    summary.update(seed=seed, definition=WORKS_DEFINITION,
+    summary, rows, reused = tl.analyse(
+        tol, builds, seed, size_px, sl.setup_worker,
+        (str(scene_path), allow_outside_paths, ideal),
+        context=fingerprint(scene.sources, ideal=ideal, allow_outside=allow_outside_paths),
+        workers=workers, progress=bar, fresh=fresh)
+    summary.update(seed=seed, definition=WORKS_DEFINITION, reused=reused,
                    seconds=round(time.perf_counter() - started, 2))
     write_json(out / "tolerance.json", summary)
     write_csv(out / "builds.csv", rows)

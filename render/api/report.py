@@ -26,7 +26,7 @@ from cloakview.render.scene.relayout import scene_with_lenses
 from cloakview.render.sweeps import sightlines as sl
 from cloakview.render.sweeps import walk as wk
 from cloakview.render.sweeps import zone as zn
-from cloakview.render.sweeps.jobs import run_jobs
+from cloakview.render.sweeps.jobs import fingerprint, run_jobs
 
 ASSUMPTIONS = (
     "Geometric optics: exact ray tracing through spherical lens surfaces, Fresnel "
@@ -133,8 +133,10 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
     xs, ds = sl.grid(-60, 60, 10, "x"), sl.grid(600, 3000, 200, "d")
     hs = sl.grid(axis - 200, axis + 200, 25, "h")
     jobs = sl.floor_jobs(xs, ds, [axis], (96, 54)) + sl.elevation_jobs(hs, ds, (96, 54))
-    rows = run_jobs(sl.measure_point, jobs, out / ".jobs" / "sightlines", lambda: state,
-                    workers=1)
+    context = fingerprint([*scene.sources, *([inventory] if inventory else [])],
+                          outer=outer, inner=inner, allow_outside=allow_outside_paths)
+    rows, _ = run_jobs(sl.measure_point, jobs, "sightlines", lambda: state, context=context,
+                       workers=1)
     floor, side = rows[:len(xs) * len(ds)], rows[len(xs) * len(ds):]
     write_png(out / "sightlines.png", charts.floor_plan_image(
         scene, floor, xs, ds, axis, f"{scene.title}: where it works"))
@@ -147,8 +149,8 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
     write_png(out / "zone.png", charts.zone_image(
         zone_map, scene, rings, f"{scene.title}: cloaked zone for '{base.name}'"))
     bar("cloaked zone")
-    summary, build_rows = tl.analyse(tol, builds, 1, (128, 72), out / ".jobs" / "tolerance",
-                                     lambda: state, workers=1)
+    summary, build_rows, _ = tl.analyse(tol, builds, 1, (128, 72), lambda: state,
+                                        context=context, workers=1)
     write_png(out / "histograms.png", charts.histogram_image(
         build_rows, f"{builds} builds: yield {summary['yield']:.0%}"))
     bar("tolerances")

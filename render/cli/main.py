@@ -15,6 +15,7 @@ from cloakview.optics.errors import InputError
 from cloakview.render.cli import frames, motion, planning, report
 from cloakview.render.cli.options import Parser, UsageError
 from cloakview.render.files import program_version
+from cloakview.render.sweeps.jobs import JobsFailed
 
 _UNITS = re.compile(r"_(mm|deg|pct|px)$")
 
@@ -63,6 +64,11 @@ def main(argv=None) -> int:
                                error.rule)
         print(f"cloakview: error: {error}", file=sys.stderr)
         return 2
+    except JobsFailed as error:
+        if debug:
+            raise
+        print(f"cloakview: error: {error}", file=sys.stderr)
+        return 1
     except UsageError as error:
         print(f"cloakview: error: command line: {error}", file=sys.stderr)
         return 2

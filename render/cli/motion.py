@@ -18,7 +18,7 @@ def _walk(args) -> int:
         frames=args.frames, size_px=opt.size(args.size) if args.size else None,
         supersample=args.supersample, side_by_side=args.side_by_side,
         ideal=True if args.ideal else None, allow_outside_paths=args.allow_outside_paths,
-        workers=args.workers, progress=not args.json)
+        workers=args.workers, fresh=args.fresh, progress=not args.json)
     summary.pop("rows")
     if args.json:
         print(json.dumps(summary, indent=2))
@@ -26,7 +26,7 @@ def _walk(args) -> int:
     print(f"Walk-by: {summary['frames']} frames, the effect works in "
           f"{summary['works_frames']} of them.")
     print(f"Wrote {summary['mp4']}, {summary['gif']} and {summary['csv']} in "
-          f"{summary['seconds']:.1f} s.")
+          f"{summary['seconds']:.1f} s." + opt.reuse_note(summary, summary["frames"]))
     print()
     print(cautions_text())
     return 0
@@ -41,14 +41,15 @@ def _sightlines(args) -> int:
         if args.height_range else None,
         size_px=opt.size(args.size), ideal=True if args.ideal else None,
         allow_outside_paths=args.allow_outside_paths, workers=args.workers,
-        progress=not args.json)
+        fresh=args.fresh, progress=not args.json)
     if args.json:
         print(json.dumps({k: v for k, v in result.items() if k != "points"}, indent=2))
         return 0
     for name, works in result["works_counts"].items():
         print(f"{name:>10}: works at {works} of {result['floor_points'][name]} floor points")
     print(result["recommendation"])
-    print(f"Maps and tables written to {args.out} in {result['seconds']:.1f} s.")
+    print(f"Maps and tables written to {args.out} in {result['seconds']:.1f} s."
+          + opt.reuse_note(result, len(result["points"])))
     return 0
 
 

@@ -142,9 +142,21 @@ def add_out(parser, default: str, what: str) -> None:
 
 
 def add_workers(parser) -> None:
-    """``--workers N`` for sweeps."""
+    """``--workers N`` and ``--fresh`` for sweeps."""
     parser.add_argument("--workers", type=int, metavar="N",
-                        help="worker processes (default: one per core)")
+                        help="worker processes, at most one per core (default: one per core)")
+    parser.add_argument("--fresh", action="store_true",
+                        help="compute every job again instead of reusing cached results "
+                        "(the cache is keyed on the input files' bytes and every option, so "
+                        "this is only needed to time a run or after a crash mid-write)")
+
+
+def reuse_note(result: dict, total: int) -> str:
+    """A sentence saying how many results came from the cache."""
+    if not result["reused"]:
+        return ""
+    return (f" {result['reused']} of {total} results were reused from the cache "
+            "(--fresh recomputes them).")
 
 
 def add_json(parser, what: str) -> None:

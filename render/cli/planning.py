@@ -29,7 +29,7 @@ def _choose(args) -> int:
         distance_mm=args.distance,
         viewing_box_mm=opt.box(args.viewing_box, "--viewing-box"),
         min_object_mm=_min_object(args.min_object), render_in=args.render_in,
-        workers=args.workers, progress=not args.json)
+        workers=args.workers, fresh=args.fresh, progress=not args.json)
     feasible = [r for r in result["designs"] if r["reason"] is None]
     if args.json:
         print(json.dumps(feasible[:args.top], indent=2))
@@ -47,7 +47,7 @@ def _choose(args) -> int:
           f"hidden ring, height x length [mm]; {rejected} pairs rejected (reasons in "
           "designs.csv).")
     print(f"Wrote {Path(args.out) / 'designs.csv'}, pareto.csv, pareto.png and designs.json "
-          f"in {result['seconds']:.1f} s.")
+          f"in {result['seconds']:.1f} s." + opt.reuse_note(result, len(result["designs"])))
     return 0
 
 
@@ -56,7 +56,7 @@ def _tolerance(args) -> int:
         args.scene, out=args.out, **opt.tolerances(args), builds=args.builds,
         seed=args.seed, size_px=opt.size(args.size), ideal=True if args.ideal else None,
         allow_outside_paths=args.allow_outside_paths, workers=args.workers,
-        progress=not args.json)
+        fresh=args.fresh, progress=not args.json)
     summary.pop("rows")
     if args.json:
         print(json.dumps(summary, indent=2))
@@ -73,6 +73,9 @@ def _tolerance(args) -> int:
               f"{s['yield_alone']:>4.0%}; {hint}")
     print(f"Wrote tolerance.json, builds.csv and histograms.png to {args.out} in "
           f"{summary['seconds']:.1f} s.")
+    if summary["reused"]:
+        print(f"{summary['reused']} build results were reused from the cache (--fresh "
+              "recomputes them).")
     return 0
 
 

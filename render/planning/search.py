@@ -25,7 +25,7 @@ from cloakview.optics.trace import Rays, trace
 from cloakview.render.planning.inventory import Item
 from cloakview.render.scene.model import Placement, Scene, Settings
 from cloakview.render.sweeps import zone as zn
-from cloakview.render.sweeps.jobs import run_jobs
+from cloakview.render.sweeps.jobs import fingerprint, run_jobs
 
 _AXIS_MM = 1250.0
 
@@ -127,18 +127,21 @@ def evaluate_job(state, job: dict) -> dict:
     return evaluate(items[job["outer"]], items[job["inner"]], constraints)
 
 
-def search(inventory_path, items: list[Item], constraints: Constraints, folder: Path,
-           workers=None, progress=None) -> list[dict]:
+def search(inventory_path, items: list[Item], constraints: Constraints, workers=None,
+           progress=None, fresh: bool = False) -> tuple[list[dict], int]:
     """Evaluate every pair with the longer focal length outside; feasible ones first, ranked.
 
-    The pairs run on the sweep job map (parallel, resumable, results kept in ``folder``).
+    The pairs run on the sweep job map (parallel, resumable; cached under the inventory's
+    bytes and the constraints). Returns (rows, how many results were reused).
     """
     jobs = [{"outer": a.id, "inner": b.id} for a, b in itertools.permutations(items, 2)
             if a.focal_length_mm > b.focal_length_mm]
     limits = {k: (v if v != float("inf") else 1e300) for k, v in
               dataclasses.asdict(constraints).items()}
-    rows = run_jobs(evaluate_job, jobs, folder, setup_worker, (str(inventory_path), limits),
-                    workers=workers, progress=progress)
+    rows, reused = run_jobs(evaluate_job, jobs, "designs", setup_worker,
+                            (str(inventory_path), limits),
+                            context=fingerprint([inventory_path], constraints=limits),
+                            workers=workers, progress=progress, fresh=fresh)
     feasible = [r for r in rows if r["reason"] is None]
     for r in feasible:
         r["pareto"] = not any(_dominates(o, r) for o in feasible if o is not r)
@@ -146,7 +149,7 @@ def search(inventory_path, items: list[Item], constraints: Constraints, folder: 
                                  r["object_length_mm"], r["cost"]))
     for rank, r in enumerate(feasible, start=1):
         r["rank"] = rank
-    return feasible + [r for r in rows if r["reason"] is not None]
+    return feasible + [r for r in rows if r["reason"] is not None], reused
 
 
 def pair_count(items: list[Item]) -> int:

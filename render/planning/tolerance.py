@@ -125,12 +125,15 @@ def summarise(tol: Tolerances, groups: dict[str, list[dict]]) -> dict:
             "yield": share(groups["all"]), "sensitivity": sensitivity, "for_95_yield": keep}
 
 
-def analyse(tol: Tolerances, builds: int, seed: int, size, folder, setup, setup_args=(),
-            workers=None, progress=None) -> tuple[dict, list]:
-    """Run every build group of :func:`plan` on the job map; return (summary, builds).
+def analyse(tol: Tolerances, builds: int, seed: int, size, setup, setup_args=(), *,
+            context: str, workers=None, progress=None,
+            fresh: bool = False) -> tuple[dict, list, int]:
+    """Run every build group of :func:`plan` on the job map.
 
-    ``setup(*setup_args)`` gives the worker state (scene, texture pyramids); builds that
-    two groups share run once. Results are kept in ``folder`` (resumable).
+    ``setup(*setup_args)`` gives the worker state (scene, texture pyramids); ``context``
+    fingerprints the scene and options behind it (see
+    :func:`cloakview.render.sweeps.jobs.fingerprint`). Builds that two groups share run
+    once. Returns (summary, the builds at ``tol``, how many results were reused).
     """
     groups = plan(tol, builds, seed, size)
     unique = {}
@@ -140,9 +143,10 @@ def analyse(tol: Tolerances, builds: int, seed: int, size, folder, setup, setup_
     jobs = list(unique.values())
     if progress:
         progress.total = len(jobs)
-    results = run_jobs(build_job, jobs, folder, setup, setup_args, workers=workers,
-                       progress=progress)
+    results, reused = run_jobs(build_job, jobs, "tolerance", setup, setup_args,
+                               context=context, workers=workers, progress=progress,
+                               fresh=fresh)
     by_job = {json.dumps(j, sort_keys=True): r for j, r in zip(jobs, results, strict=True)}
     rows = {name: [by_job[json.dumps(j, sort_keys=True)] for j in group]
             for name, group in groups.items()}
-    return summarise(tol, rows), rows["all"]
+    return summarise(tol, rows), rows["all"], reused

@@ -175,8 +175,8 @@ def _layer(t: KeyReader, folder: Path, source: str, allow_outside: bool, axis_he
     if role not in ROLES:
         raise t.error("role", role, f"must be one of {', '.join(ROLES)}")
     image_text = t.string("image", required=True)
-    texture = read_texture(_resolve_image(image_text, t.key("image"), folder, source,
-                                          allow_outside), t.key("image"), source)
+    image_path = _resolve_image(image_text, t.key("image"), folder, source, allow_outside)
+    texture = read_texture(image_path, t.key("image"), source)
     aspect = texture.shape[1] / texture.shape[0]
     width = t.number("width_mm", positive=True)
     height = t.number("height_mm", positive=True)
@@ -188,7 +188,8 @@ def _layer(t: KeyReader, folder: Path, source: str, allow_outside: bool, axis_he
     z = t.number("z_mm", required=True)
     opacity = t.number("opacity", 1.0, low=0.0, high=1.0)
     t.finish()
-    layer = Layer(name, role, texture, cx, cy_floor - axis_height, z, width, height, opacity)
+    layer = Layer(name, role, texture, cx, cy_floor - axis_height, z, width, height, opacity,
+                  image_path)
     _check_layer_place(layer, t, system, housing)
     return layer
 
@@ -348,5 +349,6 @@ def load_scene(path, allow_outside_paths: bool = False, ideal: bool | None = Non
     title = root.string("title", path.stem)
     root.finish()
     layers.sort(key=lambda layer: layer.z_mm)
+    sources = (path.resolve(), *sorted({layer.image_path for layer in layers}))
     return Scene(path, title, system, design, housing, placement, tuple(layers),
-                 tuple(viewers), settings, tube_rgb, panel_rgb)
+                 tuple(viewers), settings, tube_rgb, panel_rgb, sources)

@@ -7,6 +7,7 @@ viewer-side vertex of the first lens.
 
 from __future__ import annotations
 
+import hashlib
 import math
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -36,6 +37,8 @@ class Layer:
         Axial position [mm].
     width_mm, height_mm : float
         Physical size [mm].
+    image_path : Path, optional
+        The picture file the texture was read from.
     """
 
     name: str
@@ -47,6 +50,7 @@ class Layer:
     width_mm: float
     height_mm: float
     opacity: float = 1.0
+    image_path: Path | None = None
 
 
 @dataclass(frozen=True)
@@ -118,6 +122,12 @@ class Scene:
     settings: Settings
     tube_rgb: np.ndarray = field(repr=False)
     panel_rgb: np.ndarray = field(repr=False)
+    #: Every file the scene was read from (the scene file and its pictures).
+    sources: tuple[Path, ...] = ()
+
+    def fingerprint(self) -> dict:
+        """The SHA-256 of each file the scene was read from, by path."""
+        return {str(p): hashlib.sha256(Path(p).read_bytes()).hexdigest() for p in self.sources}
 
     def at_design_wavelength(self) -> Scene:
         """The same scene traced at one wavelength (the one nearest 587.6 nm), for sweeps."""

@@ -1,10 +1,15 @@
-"""Sweeps: many independent renders as a map over a list of jobs.
+"""Sweeps: many independent renders as a map over a list of jobs, with a cache that cannot lie.
 
 A job is a small JSON-able dict; its result is a JSON-able dict (and possibly files it
-wrote). Results are stored one file per job in the sweep's folder as they finish, so an
-interrupted sweep restarted with the same arguments skips what is done. Jobs run on a
-local process pool (one worker per core by default); the same ``run_jobs`` call could
-hand the list to a distributed engine instead.
+wrote). Each result is stored, as soon as its job finishes, in a cache folder under a key
+built from everything that can change it: the job, the function that runs it, a
+*context* fingerprint (the bytes of every input file and every option the caller passes)
+and the program version. A sweep run again skips what is done; after an edit to the scene,
+a picture, an inventory or an option the keys differ and the work is done afresh. A job
+that fails is reported with its inputs; the others' results are kept.
+
+The cache lives outside the deliverable folders: ``$CLOAKVIEW_CACHE``, else
+``$XDG_CACHE_HOME/cloakview``, else ``~/.cache/cloakview``.
 """
 
 from __future__ import annotations
@@ -13,32 +18,80 @@ import hashlib
 import json
 import multiprocessing
 import os
-from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures import ProcessPoolExecutor, as_completed
 from pathlib import Path
 
-from cloakview.render.files import write_json
+from cloakview.render.files import program_version, write_json
 
 _WORKER = {}
 
 
-def job_key(job: dict) -> str:
-    """A stable name for a job, from its content."""
-    text = json.dumps(job, sort_keys=True)
-    return hashlib.sha256(text.encode()).hexdigest()[:20]
+class JobsFailed(RuntimeError):
+    """Some jobs of a sweep raised; the others' results are stored and kept.
+
+    Attributes
+    ----------
+    failures : list of (dict, str)
+        Each failed job and what it raised.
+    finished : int
+        How many jobs of the sweep have a stored result.
+    """
+
+    def __init__(self, failures: list[tuple[dict, str]], total: int):
+        self.failures, self.finished = failures, total - len(failures)
+        job, message = failures[0]
+        text = json.dumps(job, sort_keys=True)
+        super().__init__(f"{len(failures)} of {total} jobs failed, the first with "
+                         f"{text[:200]}: {message[:300]}; the {self.finished} finished results "
+                         "are kept, so running the command again retries only the failed ones")
 
 
-def _init(setup, setup_args):
+def cache_root() -> Path:
+    """The folder that holds every sweep's cached results."""
+    if os.environ.get("CLOAKVIEW_CACHE"):
+        return Path(os.environ["CLOAKVIEW_CACHE"])
+    base = os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache"
+    return Path(base) / "cloakview"
+
+
+def fingerprint(files=(), **options) -> str:
+    """A digest of the bytes of ``files`` and the JSON of ``options`` (order-free)."""
+    digest = hashlib.sha256()
+    for path in sorted(str(p) for p in files):
+        digest.update(path.encode() + b"\0" + Path(path).read_bytes() + b"\0")
+    digest.update(json.dumps(options, sort_keys=True, default=str).encode())
+    return digest.hexdigest()
+
+
+def job_key(fn, job: dict, context: str) -> str:
+    """A stable name for one job's result: job, function, context and program version."""
+    text = json.dumps({"job": job, "fn": f"{fn.__module__}.{fn.__qualname__}",
+                       "context": context, "version": program_version()}, sort_keys=True)
+    return hashlib.sha256(text.encode()).hexdigest()[:32]
+
+
+def _init(setup, setup_args, threads):
+    _limit_threads(threads)
     _WORKER["state"] = setup(*setup_args)
 
 
-def _run_one(args):
-    fn, job = args
+def _limit_threads(threads: int) -> None:
+    """Keep a worker to its share of the cores (numba's and OpenCV's thread pools)."""
+    import cv2
+    import numba
+
+    cv2.setNumThreads(threads)
+    numba.set_num_threads(min(threads, numba.config.NUMBA_NUM_THREADS))
+
+
+def _run_one(fn, job):
     return fn(_WORKER["state"], job)
 
 
-def run_jobs(fn, jobs: list[dict], folder: Path, setup, setup_args=(), workers=None,
-             progress=None) -> list[dict]:
-    """Run ``fn(state, job)`` for every job; return results in job order.
+def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: str = "",
+             workers=None, progress=None, fresh: bool = False,
+             cache: Path | None = None) -> tuple[list[dict], int]:
+    """Run ``fn(state, job)`` for every job; return (results in job order, how many reused).
 
     Parameters
     ----------
@@ -46,49 +99,76 @@ def run_jobs(fn, jobs: list[dict], folder: Path, setup, setup_args=(), workers=N
         Module-level function (picklable) taking the worker state and one job.
     jobs : list of dict
         Independent jobs; equal jobs give equal results (seeds live in the job).
-    folder : Path
-        Where each job's result is kept as ``<key>.json``; results already there are
-        reused, which makes an interrupted sweep resumable.
+    kind : str
+        The sweep's name, a sub-folder of the cache (e.g. ``"sightlines"``).
     setup : callable
         Module-level function building the per-worker state (e.g. loading the scene).
+    context : str
+        Fingerprint of everything outside the jobs that can change a result (see
+        :func:`fingerprint`).
     workers : int, optional
         Processes to use; default the machine's cores; 1 runs in this process.
     progress : callable, optional
-        Called once per finished job.
+        Called once per finished or reused job.
+    fresh : bool
+        Run every job again instead of reusing cached results.
+    cache : Path, optional
+        Cache folder (default :func:`cache_root`).
+
+    Raises
+    ------
+    JobsFailed
+        When any job raised; every other result is stored before.
     """
-    folder = Path(folder)
+    folder = (cache or cache_root()) / "jobs" / kind
     folder.mkdir(parents=True, exist_ok=True)
-    keys = [job_key(job) for job in jobs]
+    keys = [job_key(fn, job, context) for job in jobs]
     results: dict[str, dict] = {}
-    todo = []
+    todo, queued = [], set()
     for key, job in zip(keys, jobs, strict=True):
         path = folder / f"{key}.json"
-        if path.is_file():
+        if not fresh and path.is_file():
             try:
                 results[key] = json.loads(path.read_text())
-            except json.JSONDecodeError:
+            except (OSError, json.JSONDecodeError):
                 todo.append((key, job))  # a damaged file is simply done again
                 continue
             if progress:
                 progress("cached")
-        else:
+        elif key not in queued:
+            queued.add(key)
             todo.append((key, job))
-    workers = workers or os.cpu_count() or 1
+    reused = len(results)
+    failures = []
+    workers = min(workers or os.cpu_count() or 1, os.cpu_count() or 1)
     if todo and (workers == 1 or len(todo) == 1):
         state = setup(*setup_args)
         for key, job in todo:
-            results[key] = _store(folder, key, fn(state, job), progress)
+            try:
+                result = fn(state, job)
+            except Exception as error:  # noqa: BLE001 - reported with the job's inputs
+                failures.append((job, f"{type(error).__name__}: {error}"))
+                continue
+            results[key] = _store(folder, key, result, progress)
     elif todo:
+        threads = max(1, (os.cpu_count() or 1) // workers)
         # "spawn": a forked child of a process whose compiled kernels already ran
         # threads is not safe; fresh interpreters are.
         with ProcessPoolExecutor(max_workers=min(workers, len(todo)), initializer=_init,
-                                 initargs=(setup, setup_args),
+                                 initargs=(setup, setup_args, threads),
                                  mp_context=multiprocessing.get_context("spawn")) as pool:
-            futures = pool.map(_run_one, [(fn, job) for _, job in todo],
-                               chunksize=max(1, min(4, len(todo) // (8 * workers))))
-            for (key, _), result in zip(todo, futures, strict=True):
+            futures = {pool.submit(_run_one, fn, job): (key, job) for key, job in todo}
+            for future in as_completed(futures):
+                key, job = futures[future]
+                try:
+                    result = future.result()
+                except Exception as error:  # noqa: BLE001 - reported with the job's inputs
+                    failures.append((job, f"{type(error).__name__}: {error}"))
+                    continue
                 results[key] = _store(folder, key, result, progress)
-    return [results[key] for key in keys]
+    if failures:
+        raise JobsFailed(failures, len(jobs))
+    return [results[key] for key in keys], reused
 
 
 def _store(folder: Path, key: str, result: dict, progress) -> dict:

@@ -1,0 +1,73 @@
+"""The sweep job map: a cache keyed on every input, and no result lost to a failing job."""
+
+import json
+
+import pytest
+from cloakview.render.cli.main import main
+from cloakview.render.sweeps.jobs import JobsFailed, run_jobs
+from scenes import RING, write_scene
+
+
+def _setup():
+    return "state"
+
+
+def _half_fails(state, job):
+    if job["i"] == 7:
+        raise ValueError("this job is broken")
+    return {"i": job["i"], "square": job["i"] ** 2, "state": state}
+
+
+@pytest.mark.parametrize("workers", [1, 2])
+def test_one_failing_job_keeps_every_other_result(tmp_path, workers):
+    jobs = [{"i": i} for i in range(16)]
+    with pytest.raises(JobsFailed) as failed:
+        run_jobs(_half_fails, jobs, "t", _setup, workers=workers, cache=tmp_path)
+    assert failed.value.finished == 15
+    assert failed.value.failures[0][0] == {"i": 7}
+    assert '1 of 16 jobs failed, the first with {"i": 7}' in str(failed.value)
+    stored = [json.loads(p.read_text()) for p in (tmp_path / "jobs" / "t").glob("*.json")]
+    assert sorted(r["i"] for r in stored) == [i for i in range(16) if i != 7]
+    # The good results are reused; only the failed job runs again.
+    results, reused = run_jobs(_half_fails, jobs[:7] + jobs[8:], "t", _setup, workers=workers,
+                               cache=tmp_path)
+    assert reused == 15 and [r["square"] for r in results] == [
+        i * i for i in range(16) if i != 7]
+
+
+def _sweep(scene, out, *extra):
+    assert main(["sightlines", str(scene), "--heights", "1150", "--lateral-range", "-20:20:20",
+                 "--distance-range", "600:700:100", "--height-range", "1150:1150:25",
+                 "--size", "32x24", "--workers", "1", "--out", str(out), "--json", *extra]) == 0
+    return json.loads((out / "sightlines.json").read_text())
+
+
+def test_an_edited_scene_picture_or_option_is_never_answered_from_the_cache(tmp_path):
+    scene = write_scene(tmp_path / "s", layers=RING, render_extra="ideal = true")
+    out = tmp_path / "out"
+    first = _sweep(scene, out)
+    assert first["reused"] == 0
+    # The elevation line repeats the floor's on-axis points: those are one job each.
+    distinct = len({(p["x"], p["d"], p["h"]) for p in first["points"]})
+    again = _sweep(scene, out)
+    assert again["reused"] == distinct and again["points"] == first["points"]
+    # The scene file: move the object out of the cloaked ring.
+    text = scene.read_text()
+    scene.write_text(text.replace("z_mm = 222", "z_mm = 100"))
+    assert _sweep(scene, out)["reused"] == 0
+    scene.write_text(text)
+    # A picture: same scene file, other pixels.
+    picture = tmp_path / "s" / "art" / "poster.png"
+    original = picture.read_bytes()
+    import imageio.v3 as iio
+
+    pixels = iio.imread(picture)
+    iio.imwrite(picture, 255 - pixels)
+    assert _sweep(scene, out)["reused"] == 0
+    picture.write_bytes(original)
+    # An option.
+    assert _sweep(scene, out, "--ideal")["reused"] == 0
+    # Back to the first inputs: those results are still there, and still right.
+    back = _sweep(scene, out)
+    assert back["reused"] == distinct and back["points"] == first["points"]
+    assert _sweep(scene, out, "--fresh")["reused"] == 0
