@@ -8,7 +8,9 @@ def glass_n15():
     return Material("n1.5", ConstantIndex(1.5), 2.5, "textbook n = 1.5")
 
 
-@pytest.fixture(autouse=True)
-def _job_cache(tmp_path_factory, monkeypatch):
-    """Every test gets its own sweep cache, so no test reuses another's results."""
-    monkeypatch.setenv("CLOAKVIEW_CACHE", str(tmp_path_factory.mktemp("cache")))
+@pytest.fixture(autouse=True, scope="session")
+def _job_cache(tmp_path_factory):
+    """The test session's sweep cache, so the tests leave the user's cache alone."""
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setenv("CLOAKVIEW_CACHE", str(tmp_path_factory.mktemp("cache")))
+        yield

@@ -43,8 +43,9 @@ def test_the_wheel_installs_only_cloakview_at_the_top(tmp_path):
                                capture_output=True, text=True, check=True).stdout.strip())
     before = set(os.listdir(site))
     wheel = next(wheels.glob("cloakview-*.whl"))
-    subprocess.run([str(python), "-m", "pip", "install", "--no-deps", "--quiet",
-                    "--disable-pip-version-check", str(wheel)], check=True, capture_output=True)
+    subprocess.run([str(python), "-m", "pip", "install", "--no-deps", "--ignore-installed",
+                    "--quiet", "--disable-pip-version-check", str(wheel)], check=True,
+                   capture_output=True)
     added = {name for name in set(os.listdir(site)) - before if not name.endswith(".dist-info")}
     assert added == {"cloakview"}
     # The installed copy (not this checkout) imports, finds its bundled files, shows its API.
