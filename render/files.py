@@ -18,11 +18,14 @@ from pathlib import Path
 import imageio.v3 as iio
 import numpy as np
 
+#: Marks the temporary files of :func:`atomic_write` (a killed run's are removed later).
+TEMP_MARK = ".cloakview-tmp-"
+
 
 def atomic_write(path: Path, write) -> None:
     """Call ``write(temp_path)`` then rename the temporary file onto ``path``."""
     path.parent.mkdir(parents=True, exist_ok=True)
-    handle, temp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix,
+    handle, temp = tempfile.mkstemp(prefix=f".{path.name[:100]}{TEMP_MARK}", suffix=path.suffix,
                                     dir=path.parent)
     os.close(handle)
     try:

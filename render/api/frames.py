@@ -18,6 +18,7 @@ from cloakview import sample_scenes as samples
 from cloakview.optics.cloak import CloakDesign, LensChoice, design_cloak
 from cloakview.optics.errors import InputError, require_finite_positive
 from cloakview.optics.materials import material_by_name
+from cloakview.render import outfolder
 from cloakview.render.files import atomic_write, write_json, write_png
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.outputs import run_record, write_summary, write_viewer
@@ -176,20 +177,21 @@ def render(scene: Scene | str | Path, *, viewer: str | None = None, eye_mm=None,
     if unknown:
         raise InputError("views", unknown[0], f"unknown view; choose from {', '.join(VIEW_NAMES)}")
     chosen = _viewers(scene, viewer, eye_mm, look_at_mm, size_px)
+    if out is not None:
+        outfolder.check(out, scene.sources)  # before the work, not after it
     pyramids = TexturePyramids(scene)
     bar = Progress(3 * len(chosen), "rendering", enabled=progress)
-    renders = []
-    for v in chosen:
-        result = render_viewer(scene, v, pyramids, tuple(views), supersample, bar)
-        if out is not None:
-            write_viewer(Path(out), result)
-        renders.append(result)
+    renders = [render_viewer(scene, v, pyramids, tuple(views), supersample, bar)
+               for v in chosen]
     if out is not None:
         options = {"views": list(views), "viewers": [v.name for v in chosen],
                    "ideal": scene.settings.ideal,
                    "supersample": supersample or scene.settings.supersample,
                    "wavelengths_nm": list(scene.settings.wavelengths_nm)}
-        write_summary(Path(out), renders, scene.path, options, started)
+        with outfolder.output_folder(out, scene.sources) as folder:
+            for result in renders:
+                write_viewer(folder, result)
+            write_summary(folder, renders, scene.path, options, started)
     return renders
 
 
@@ -225,6 +227,8 @@ def eyes(scene: Scene | str | Path, *, viewer: str | None = None,
     if not 20.0 <= ipd_mm <= 90.0:
         raise InputError("ipd_mm", ipd_mm, "interpupillary distance must be 20 to 90 mm")
     left, right = both_eyes.eye_pair(base, ipd_mm)
+    if out is not None:
+        outfolder.check(out, scene.sources)
     pyramids = TexturePyramids(scene)
     bar = Progress(6, "both eyes", enabled=progress)
     renders = [render_viewer(scene, v, pyramids, ("cloaked",), progress=bar)
@@ -233,16 +237,17 @@ def eyes(scene: Scene | str | Path, *, viewer: str | None = None,
     result = BothEyes(renders[0], renders[1], both_eyes.anaglyph(*images),
                       both_eyes.statement(renders[0].metrics, renders[1].metrics))
     if out is not None:
-        folder = Path(out) / base.name
-        write_png(folder / "left.png", images[0])
-        write_png(folder / "right.png", images[1])
-        write_png(folder / "pair.png", np.concatenate(images, axis=1))
-        write_png(folder / "anaglyph.png", result.anaglyph)
-        write_json(folder / "metrics.json", {
-            "viewer": base.name, "ipd_mm": ipd_mm, "left": renders[0].metrics,
-            "right": renders[1].metrics, "both_eyes": result.statement})
-        run_record(Path(out), "eyes", {"scene": str(scene.path), "viewer": base.name,
-                                       "ipd_mm": ipd_mm}, started)
+        with outfolder.output_folder(out, scene.sources) as top:
+            folder = top / base.name
+            write_png(folder / "left.png", images[0])
+            write_png(folder / "right.png", images[1])
+            write_png(folder / "pair.png", np.concatenate(images, axis=1))
+            write_png(folder / "anaglyph.png", result.anaglyph)
+            write_json(folder / "metrics.json", {
+                "viewer": base.name, "ipd_mm": ipd_mm, "left": renders[0].metrics,
+                "right": renders[1].metrics, "both_eyes": result.statement})
+            run_record(top, "eyes", {"scene": str(scene.path), "viewer": base.name,
+                                     "ipd_mm": ipd_mm}, started)
     return result
 
 
@@ -251,11 +256,11 @@ def copy_samples(out: str | Path) -> list[Path]:
 
     Returns the files written. Each is written to a temporary file and renamed into place.
     """
-    out = Path(out)
     written = []
-    for name in samples.files():
-        target = out / name
-        source = samples.path(name)
-        atomic_write(target, lambda temp, src=source: shutil.copyfile(src, temp))
-        written.append(target)
+    with outfolder.output_folder(out) as folder:
+        for name in samples.files():
+            target = folder / name
+            source = samples.path(name)
+            atomic_write(target, lambda temp, src=source: shutil.copyfile(src, temp))
+            written.append(target)
     return written

@@ -15,6 +15,7 @@ from pathlib import Path
 
 import numpy as np
 from cloakview.optics.errors import InputError
+from cloakview.render import outfolder
 from cloakview.render.files import run_record, write_csv, write_json, write_png
 from cloakview.render.frame.metrics import WORKS_DEFINITION
 from cloakview.render.progress import Progress
@@ -98,38 +99,39 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
                        height_mm=height, span_mm=_finite("span_mm", span_mm, 0.0, 1e5),
                        arc_deg=_finite("arc_deg", arc_deg, 0.0, 180.0),
                        to_height_mm=_finite("to_height_mm", to_height_mm, 0.0, 5000.0))
-    out = Path(out)
-    size = size_px or (base.width_px, base.height_px)
-    frames_dir = out / "frames"
-    jobs = [{"index": i, "eye": [float(v) for v in eye], "size": list(size),
-             "supersample": supersample or scene.settings.supersample,
-             "side_by_side": side_by_side,
-             "frame_path": str(frames_dir / f"frame_{i:05d}.png")}
-            for i, eye in enumerate(eyes)]
-    bar = Progress(len(jobs), "walk-by", enabled=progress)
-    setup_args = (str(scene_path), allow_outside_paths, ideal)
-    rows, reused = run_jobs(wk.render_frame, jobs, "walk", wk.setup_worker, setup_args,
-                            context=fingerprint(scene.sources, ideal=ideal,
-                                                allow_outside=allow_outside_paths),
-                            workers=workers, progress=bar, fresh=fresh)
-    missing = [j for j in jobs if not Path(j["frame_path"]).is_file()]
-    if missing:  # result cached but picture removed: draw those frames again
-        state = wk.setup_worker(*setup_args)
-        for job in missing:
-            wk.render_frame(state, job)
-    wk.write_videos([Path(j["frame_path"]) for j in jobs], out / "walk.mp4",
-                    out / "walk.gif", fps)
-    write_csv(out / "walk.csv", rows)
-    summary = {"frames": len(rows), "fps": fps,
-               "works_frames": sum(r["verdict"].startswith("works") for r in rows),
-               "reused": reused,
-               "mp4": str(out / "walk.mp4"), "gif": str(out / "walk.gif"),
-               "csv": str(out / "walk.csv"),
-               "seconds": round(time.perf_counter() - started, 2)}
-    run_record(out, "walk", {"scene": str(scene_path), "path": str(path),
-                             "frames": len(rows), "fps": fps, "size_px": list(size)},
-               started, summary=summary)
-    return {**summary, "rows": rows}
+    inputs = [*scene.sources, *([Path(path)] if str(path) not in wk.PATHS else [])]
+    with outfolder.output_folder(out, inputs) as out:
+        size = size_px or (base.width_px, base.height_px)
+        frames_dir = out / "frames"
+        jobs = [{"index": i, "eye": [float(v) for v in eye], "size": list(size),
+                 "supersample": supersample or scene.settings.supersample,
+                 "side_by_side": side_by_side,
+                 "frame_path": str(frames_dir / f"frame_{i:05d}.png")}
+                for i, eye in enumerate(eyes)]
+        bar = Progress(len(jobs), "walk-by", enabled=progress)
+        setup_args = (str(scene_path), allow_outside_paths, ideal)
+        rows, reused = run_jobs(wk.render_frame, jobs, "walk", wk.setup_worker, setup_args,
+                                context=fingerprint(scene.sources, ideal=ideal,
+                                                    allow_outside=allow_outside_paths),
+                                workers=workers, progress=bar, fresh=fresh)
+        missing = [j for j in jobs if not Path(j["frame_path"]).is_file()]
+        if missing:  # result cached but picture removed: draw those frames again
+            state = wk.setup_worker(*setup_args)
+            for job in missing:
+                wk.render_frame(state, job)
+        wk.write_videos([Path(j["frame_path"]) for j in jobs], out / "walk.mp4",
+                        out / "walk.gif", fps)
+        write_csv(out / "walk.csv", rows)
+        summary = {"frames": len(rows), "fps": fps,
+                   "works_frames": sum(r["verdict"].startswith("works") for r in rows),
+                   "reused": reused,
+                   "mp4": str(out / "walk.mp4"), "gif": str(out / "walk.gif"),
+                   "csv": str(out / "walk.csv"),
+                   "seconds": round(time.perf_counter() - started, 2)}
+        run_record(out, "walk", {"scene": str(scene_path), "path": str(path),
+                                 "frames": len(rows), "fps": fps, "size_px": list(size)},
+                   started, summary=summary)
+        return {**summary, "rows": rows}
 
 
 def eye_heights(heights) -> dict[str, float]:
@@ -193,7 +195,7 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
                                         25.0)), "height_range_mm")
     floor = sl.floor_jobs(xs, ds, list(named.values()), size_px)
     side = sl.elevation_jobs(hs, ds, size_px)
-    out = Path(out)
+    outfolder.check(out, scene.sources)  # before the sweep, not after it
     bar = Progress(len(floor) + len(side), "sight lines", enabled=progress)
     rows, reused = run_jobs(sl.measure_point, floor + side, "sightlines", sl.setup_worker,
                             (str(scene_path), allow_outside_paths, ideal),
@@ -201,28 +203,29 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
                                                 allow_outside=allow_outside_paths),
                             workers=workers, progress=bar, fresh=fresh)
     floor_rows, side_rows = rows[:len(floor)], rows[len(floor):]
-    by_height = {}
-    for name, h in named.items():
-        subset = [r for r in floor_rows if r["h"] == h]
-        by_height[name] = subset
-        write_png(out / f"floor_{name.replace(' ', '')}.png", charts.floor_plan_image(
-            scene, subset, xs, ds, h, f"{scene.title}: where it works ({name})"))
-    write_png(out / "elevation.png", charts.elevation_image(
-        scene, side_rows, hs, ds, f"{scene.title}: eye heights"))
-    write_csv(out / "sightlines.csv", rows)
-    result = {"definition": WORKS_DEFINITION, "heights_mm": named,
-              "works_counts": {name: sum(r["class"] == "works" for r in subset)
-                               for name, subset in by_height.items()},
-              "floor_points": {name: len(subset) for name, subset in by_height.items()},
-              "recommendation": sl.recommendation(by_height, side_rows, axis),
-              "reused": reused, "seconds": round(time.perf_counter() - started, 2),
-              "points": rows}
-    write_json(out / "sightlines.json", result)
-    run_record(out, "sightlines", {"scene": str(scene_path), "heights_mm": named,
-                                   "lateral_range_mm": list(lateral_range_mm),
-                                   "distance_range_mm": list(distance_range_mm),
-                                   "height_range_mm": hs[:1] + hs[-1:],
-                                   "size_px": list(size_px)}, started, points=len(rows))
+    with outfolder.output_folder(out, scene.sources) as out:
+        by_height = {}
+        for name, h in named.items():
+            subset = [r for r in floor_rows if r["h"] == h]
+            by_height[name] = subset
+            write_png(out / f"floor_{name.replace(' ', '')}.png", charts.floor_plan_image(
+                scene, subset, xs, ds, h, f"{scene.title}: where it works ({name})"))
+        write_png(out / "elevation.png", charts.elevation_image(
+            scene, side_rows, hs, ds, f"{scene.title}: eye heights"))
+        write_csv(out / "sightlines.csv", rows)
+        result = {"definition": WORKS_DEFINITION, "heights_mm": named,
+                  "works_counts": {name: sum(r["class"] == "works" for r in subset)
+                                   for name, subset in by_height.items()},
+                  "floor_points": {name: len(subset) for name, subset in by_height.items()},
+                  "recommendation": sl.recommendation(by_height, side_rows, axis),
+                  "reused": reused, "seconds": round(time.perf_counter() - started, 2),
+                  "points": rows}
+        write_json(out / "sightlines.json", result)
+        run_record(out, "sightlines", {"scene": str(scene_path), "heights_mm": named,
+                                       "lateral_range_mm": list(lateral_range_mm),
+                                       "distance_range_mm": list(distance_range_mm),
+                                       "height_range_mm": hs[:1] + hs[-1:],
+                                       "size_px": list(size_px)}, started, points=len(rows))
     return result
 
 
@@ -278,6 +281,8 @@ def zone(scene_path: str | Path, *, viewer: str | None = None,
     base = _base_viewer(scene, viewer)
     box = check_viewing_box(viewing_box_mm) if viewing_box_mm is not None else None
     eyes = _box_eyes(base, box)
+    if out is not None:
+        outfolder.check(out, scene.sources)
     bar = Progress(1, "cloaked zone", enabled=progress)
     zone_map = zn.cloaked_zone(scene, eyes)
     bar(f"{len(eyes)} eye points")
@@ -288,10 +293,11 @@ def zone(scene_path: str | Path, *, viewer: str | None = None,
               "axis_hidden": bool(zone_map.hidden[:, 0].any()),
               "seconds": round(time.perf_counter() - started, 2)}
     if out is not None:
-        out = Path(out)
-        write_png(out / "zone.png", charts.zone_image(
-            zone_map, scene, rings, f"{scene.title}: cloaked zone for '{base.name}'"))
-        write_json(out / "zone.json", result)
-        run_record(out, "zone", {"scene": str(scene_path), "viewer": base.name,
-                                 "viewing_box_mm": list(box) if box else None}, started)
+        with outfolder.output_folder(out, scene.sources) as folder:
+            write_png(folder / "zone.png", charts.zone_image(
+                zone_map, scene, rings, f"{scene.title}: cloaked zone for '{base.name}'"))
+            write_json(folder / "zone.json", result)
+            run_record(folder, "zone", {"scene": str(scene_path), "viewer": base.name,
+                                        "viewing_box_mm": list(box) if box else None},
+                       started)
     return result

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 from cloakview.optics.errors import InputError
+from cloakview.render import outfolder
 from cloakview.render.api.motion import check_viewing_box
 from cloakview.render.files import run_record, write_csv, write_json, write_png
 from cloakview.render.frame.metrics import WORKS_DEFINITION
@@ -94,7 +95,9 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
         max_budget=_limit("budget", budget, -1e-300),
         viewing_distance_mm=float(distance_mm),
         zone_mm=check_viewing_box(viewing_box_mm), min_object_mm=need)
-    out = Path(out)
+    render_scene = load_scene(render_in) if render_in is not None else None
+    inputs = [Path(inventory), *(render_scene.sources if render_scene else ())]
+    outfolder.check(out, inputs)
     bar = Progress(search.pair_count(items), "design search", enabled=progress)
     rows, reused = search.search(inventory, items, constraints, workers, bar, fresh)
     feasible = [r for r in rows if r["reason"] is None]
@@ -106,20 +109,24 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
                                "min_object_mm": list(need)},
                "designs": rows, "feasible": len(feasible), "reused": reused,
                "seconds": round(time.perf_counter() - started, 2)}
-    write_csv(out / "designs.csv", rows, DESIGN_COLUMNS)
-    write_json(out / "designs.json", summary)
-    write_csv(out / "pareto.csv", [r for r in feasible if r["pareto"]], DESIGN_COLUMNS)
-    write_png(out / "pareto.png", charts.pareto_image(rows))
-    if render_in is not None:
+    top = None
+    if render_scene is not None:  # may be refused (lenses wider than its tube): before writing
         by_id = {i.id: i for i in items}
-        scene = scene_with_lenses(load_scene(render_in), by_id[feasible[0]["outer"]].lens,
+        scene = scene_with_lenses(render_scene, by_id[feasible[0]["outer"]].lens,
                                   by_id[feasible[0]["inner"]].lens)
-        result = render_viewer(scene, scene.viewers[0], views=("cloaked", "vanish"))
-        write_png(out / "top_design.png", result.images["cloaked"])
-        write_png(out / "top_design_vanish.png", result.images["vanish"])
-        write_json(out / "top_design_metrics.json", result.metrics)
-    run_record(out, "choose", {"inventory": str(inventory), **summary["constraints"],
-                               "render_in": str(render_in) if render_in else None}, started)
+        top = render_viewer(scene, scene.viewers[0], views=("cloaked", "vanish"))
+    with outfolder.output_folder(out, inputs) as folder:
+        write_csv(folder / "designs.csv", rows, DESIGN_COLUMNS)
+        write_json(folder / "designs.json", summary)
+        write_csv(folder / "pareto.csv", [r for r in feasible if r["pareto"]], DESIGN_COLUMNS)
+        write_png(folder / "pareto.png", charts.pareto_image(rows))
+        if top is not None:
+            write_png(folder / "top_design.png", top.images["cloaked"])
+            write_png(folder / "top_design_vanish.png", top.images["vanish"])
+            write_json(folder / "top_design_metrics.json", top.metrics)
+        run_record(folder, "choose", {"inventory": str(inventory), **summary["constraints"],
+                                      "render_in": str(render_in) if render_in else None},
+                   started)
     return summary
 
 
@@ -171,7 +178,7 @@ def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
     if not 0 <= seed < 2 ** 32:
         raise InputError("seed", seed, "must be a whole number from 0 to 4294967295")
     scene = load_scene(scene_path, allow_outside_paths=allow_outside_paths, ideal=ideal)
-    out = Path(out)
+    outfolder.check(out, scene.sources)
     bar = Progress(1, "tolerance", enabled=progress)
     summary, rows, reused = tl.analyse(
         tol, builds, seed, size_px, sl.setup_worker,
@@ -180,11 +187,12 @@ def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
         workers=workers, progress=bar, fresh=fresh)
     summary.update(seed=seed, definition=WORKS_DEFINITION, reused=reused,
                    seconds=round(time.perf_counter() - started, 2))
-    write_json(out / "tolerance.json", summary)
-    write_csv(out / "builds.csv", rows)
-    write_png(out / "histograms.png", charts.histogram_image(
-        rows, f"{builds} builds: yield {summary['yield']:.0%}"))
-    run_record(out, "tolerance", {"scene": str(scene_path), **dataclasses.asdict(tol),
-                                  "builds": builds, "seed": seed, "size_px": list(size_px)},
-               started)
+    with outfolder.output_folder(out, scene.sources) as folder:
+        write_json(folder / "tolerance.json", summary)
+        write_csv(folder / "builds.csv", rows)
+        write_png(folder / "histograms.png", charts.histogram_image(
+            rows, f"{builds} builds: yield {summary['yield']:.0%}"))
+        run_record(folder, "tolerance", {"scene": str(scene_path), **dataclasses.asdict(tol),
+                                         "builds": builds, "seed": seed,
+                                         "size_px": list(size_px)}, started)
     return {**summary, "rows": rows}

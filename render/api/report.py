@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 from cloakview.optics.errors import InputError
+from cloakview.render import outfolder
 from cloakview.render.api.planning import check_tolerances
 from cloakview.render.cautions import CAUTIONS
 from cloakview.render.files import program_version, run_record, write_json, write_png, write_text
@@ -94,89 +95,90 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
     if scene.design is None:
         raise InputError("device", str(scene_path), "the report needs a device laid out by the "
                          "designer (f_outer_mm/f_inner_mm) or inventory lenses (outer/inner)")
-    out = Path(out)
-    bar = Progress(7, "report", enabled=progress)
-    design = summarise(scene.design)
-    for entry in design["lenses"]:
-        entry["price"] = prices.get("outer" if "outer" in entry["label"] else "inner")
-    cost = 2 * (prices["outer"] + prices["inner"]) if prices else None
-    write_text(out / "layout.svg", layout_svg(design, scene))
-    bar("layout")
-    pyramids = TexturePyramids(scene)
-    views = []
-    for viewer in scene.viewers[:6]:
-        r = render_viewer(scene, viewer, pyramids, ("cloaked",))
-        name = f"view_{viewer.name}.png"
-        write_png(out / name, r.images["cloaked"])
-        shift = r.metrics["background_shift_arcmin"]
-        views.append({"name": viewer.name, "image": name, "eye_mm": list(viewer.eye_mm),
-                      "hidden_fraction": r.metrics["hidden_fraction"],
-                      "background_ssim": r.metrics["background_ssim"],
-                      "shift_median_arcmin": shift and shift["median"],
-                      "transmittance": r.metrics["transmittance"],
-                      "verdict": r.metrics["verdict"]})
-    bar("visitor views")
-    base = scene.viewers[0]
-    distance = float(scene.housing.panel_z_mm - scene.placement.to_device(
-        np.asarray(base.eye_mm))[2])
-    strip, walk_rows = [], []
-    small = dataclasses.replace(base, width_px=240, height_px=135)
-    for eye in wk.straight_path(scene, distance, base.eye_mm[1], 120.0, 5):
-        r = render_viewer(scene, wk.frame_viewer(scene, small, eye), pyramids, ("cloaked",))
-        strip.append(r.images["cloaked"])
-        walk_rows.append({"eye_x_mm": float(eye[0]), "verdict": r.metrics["verdict"]})
-    write_png(out / "walk_strip.png", np.concatenate(strip, axis=1))
-    bar("walk-by")
-    quick = scene.at_design_wavelength()
-    state = (quick, TexturePyramids(quick))
-    axis = scene.placement.axis_height_mm
-    xs, ds = sl.grid(-60, 60, 10, "x"), sl.grid(600, 3000, 200, "d")
-    hs = sl.grid(axis - 200, axis + 200, 25, "h")
-    jobs = sl.floor_jobs(xs, ds, [axis], (96, 54)) + sl.elevation_jobs(hs, ds, (96, 54))
-    context = fingerprint([*scene.sources, *([inventory] if inventory else [])],
-                          outer=outer, inner=inner, allow_outside=allow_outside_paths)
-    rows, _ = run_jobs(sl.measure_point, jobs, "sightlines", lambda: state, context=context,
-                       workers=1)
-    floor, side = rows[:len(xs) * len(ds)], rows[len(xs) * len(ds):]
-    write_png(out / "sightlines.png", charts.floor_plan_image(
-        scene, floor, xs, ds, axis, f"{scene.title}: where it works"))
-    write_png(out / "elevation.png", charts.elevation_image(
-        scene, side, hs, ds, f"{scene.title}: eye heights"))
-    advice = sl.recommendation({f"{axis:.0f} mm": floor}, side, axis)
-    bar("sight lines")
-    zone_map = zn.cloaked_zone(scene, np.array([base.eye_mm]))
-    rings = zn.largest_rings(zone_map, scene)
-    write_png(out / "zone.png", charts.zone_image(
-        zone_map, scene, rings, f"{scene.title}: cloaked zone for '{base.name}'"))
-    bar("cloaked zone")
-    summary, build_rows, _ = tl.analyse(tol, builds, 1, (128, 72), lambda: state,
-                                        context=context, workers=1)
-    write_png(out / "histograms.png", charts.histogram_image(
-        build_rows, f"{builds} builds: yield {summary['yield']:.0%}"))
-    bar("tolerances")
-    data = {
-        "title": scene.title, "version": program_version(),
-        "summary": (f"This proposal previews a four-lens 'vanishing' exhibit: lenses of "
-                    f"{design['f_outer_mm']:.0f} mm and {design['f_inner_mm']:.0f} mm focal "
-                    f"length on a {design['length_mm'] / 1000:.2f} m rail make the view "
-                    "through them look like empty space, so an object placed in the ring "
-                    "around the axis inside the device disappears. From the design viewing "
-                    f"point ('{base.name}'), {_pct(views[0]['hidden_fraction'])} of the "
-                    "object vanishes; the pages below show what visitors of different "
-                    "heights see, from where it works, what can be hidden, and how "
-                    "precisely it must be built."),
-        "design": design, "lens_cost": cost, "views": views, "walk": walk_rows,
-        "walk_distance_mm": distance, "recommendation": advice,
-        "works_definition": WORKS_DEFINITION.removeprefix("works: "),
-        "rings": [dict(dataclasses.asdict(r), height_mm=r.height_mm, length_mm=r.length_mm)
-                  for r in rings],
-        "tolerance": summary, "assumptions": list(ASSUMPTIONS), "cautions": list(CAUTIONS),
-        "seconds": round(time.perf_counter() - started, 2),
-    }
-    write_json(out / "report.json", data)
-    write_text(out / "index.html", page(data))
-    bar("page")
-    run_record(out, "report", {"scene": str(scene_path), "inventory": str(inventory)
-                               if inventory else None, "outer": outer, "inner": inner,
-                               **dataclasses.asdict(tol), "builds": builds}, started)
-    return data
+    inputs = [*scene.sources, *([Path(inventory)] if inventory else [])]
+    with outfolder.output_folder(out, inputs) as out:
+        bar = Progress(7, "report", enabled=progress)
+        design = summarise(scene.design)
+        for entry in design["lenses"]:
+            entry["price"] = prices.get("outer" if "outer" in entry["label"] else "inner")
+        cost = 2 * (prices["outer"] + prices["inner"]) if prices else None
+        write_text(out / "layout.svg", layout_svg(design, scene))
+        bar("layout")
+        pyramids = TexturePyramids(scene)
+        views = []
+        for viewer in scene.viewers[:6]:
+            r = render_viewer(scene, viewer, pyramids, ("cloaked",))
+            name = f"view_{viewer.name}.png"
+            write_png(out / name, r.images["cloaked"])
+            shift = r.metrics["background_shift_arcmin"]
+            views.append({"name": viewer.name, "image": name, "eye_mm": list(viewer.eye_mm),
+                          "hidden_fraction": r.metrics["hidden_fraction"],
+                          "background_ssim": r.metrics["background_ssim"],
+                          "shift_median_arcmin": shift and shift["median"],
+                          "transmittance": r.metrics["transmittance"],
+                          "verdict": r.metrics["verdict"]})
+        bar("visitor views")
+        base = scene.viewers[0]
+        distance = float(scene.housing.panel_z_mm - scene.placement.to_device(
+            np.asarray(base.eye_mm))[2])
+        strip, walk_rows = [], []
+        small = dataclasses.replace(base, width_px=240, height_px=135)
+        for eye in wk.straight_path(scene, distance, base.eye_mm[1], 120.0, 5):
+            r = render_viewer(scene, wk.frame_viewer(scene, small, eye), pyramids, ("cloaked",))
+            strip.append(r.images["cloaked"])
+            walk_rows.append({"eye_x_mm": float(eye[0]), "verdict": r.metrics["verdict"]})
+        write_png(out / "walk_strip.png", np.concatenate(strip, axis=1))
+        bar("walk-by")
+        quick = scene.at_design_wavelength()
+        state = (quick, TexturePyramids(quick))
+        axis = scene.placement.axis_height_mm
+        xs, ds = sl.grid(-60, 60, 10, "x"), sl.grid(600, 3000, 200, "d")
+        hs = sl.grid(axis - 200, axis + 200, 25, "h")
+        jobs = sl.floor_jobs(xs, ds, [axis], (96, 54)) + sl.elevation_jobs(hs, ds, (96, 54))
+        context = fingerprint([*scene.sources, *([inventory] if inventory else [])],
+                              outer=outer, inner=inner, allow_outside=allow_outside_paths)
+        rows, _ = run_jobs(sl.measure_point, jobs, "sightlines", lambda: state, context=context,
+                           workers=1)
+        floor, side = rows[:len(xs) * len(ds)], rows[len(xs) * len(ds):]
+        write_png(out / "sightlines.png", charts.floor_plan_image(
+            scene, floor, xs, ds, axis, f"{scene.title}: where it works"))
+        write_png(out / "elevation.png", charts.elevation_image(
+            scene, side, hs, ds, f"{scene.title}: eye heights"))
+        advice = sl.recommendation({f"{axis:.0f} mm": floor}, side, axis)
+        bar("sight lines")
+        zone_map = zn.cloaked_zone(scene, np.array([base.eye_mm]))
+        rings = zn.largest_rings(zone_map, scene)
+        write_png(out / "zone.png", charts.zone_image(
+            zone_map, scene, rings, f"{scene.title}: cloaked zone for '{base.name}'"))
+        bar("cloaked zone")
+        summary, build_rows, _ = tl.analyse(tol, builds, 1, (128, 72), lambda: state,
+                                            context=context, workers=1)
+        write_png(out / "histograms.png", charts.histogram_image(
+            build_rows, f"{builds} builds: yield {summary['yield']:.0%}"))
+        bar("tolerances")
+        data = {
+            "title": scene.title, "version": program_version(),
+            "summary": (f"This proposal previews a four-lens 'vanishing' exhibit: lenses of "
+                        f"{design['f_outer_mm']:.0f} mm and {design['f_inner_mm']:.0f} mm focal "
+                        f"length on a {design['length_mm'] / 1000:.2f} m rail make the view "
+                        "through them look like empty space, so an object placed in the ring "
+                        "around the axis inside the device disappears. From the design viewing "
+                        f"point ('{base.name}'), {_pct(views[0]['hidden_fraction'])} of the "
+                        "object vanishes; the pages below show what visitors of different "
+                        "heights see, from where it works, what can be hidden, and how "
+                        "precisely it must be built."),
+            "design": design, "lens_cost": cost, "views": views, "walk": walk_rows,
+            "walk_distance_mm": distance, "recommendation": advice,
+            "works_definition": WORKS_DEFINITION.removeprefix("works: "),
+            "rings": [dict(dataclasses.asdict(r), height_mm=r.height_mm, length_mm=r.length_mm)
+                      for r in rings],
+            "tolerance": summary, "assumptions": list(ASSUMPTIONS), "cautions": list(CAUTIONS),
+            "seconds": round(time.perf_counter() - started, 2),
+        }
+        write_json(out / "report.json", data)
+        write_text(out / "index.html", page(data))
+        bar("page")
+        run_record(out, "report", {"scene": str(scene_path), "inventory": str(inventory)
+                                   if inventory else None, "outer": outer, "inner": inner,
+                                   **dataclasses.asdict(tol), "builds": builds}, started)
+        return data

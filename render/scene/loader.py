@@ -12,6 +12,7 @@ along the axis from the first lens.
 from __future__ import annotations
 
 import math
+import re
 import tomllib
 from dataclasses import replace
 from pathlib import Path
@@ -37,6 +38,9 @@ from cloakview.render.scene.model import (
 from cloakview.render.scene.pictures import read_texture
 
 MAX_IMAGE_SIDE_PX = 8192
+#: A viewer's name becomes a folder name in the output: a plain, portable file name.
+_VIEWER_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9 ._-]{0,63}")
+_RESERVED_NAMES = {"metrics.json", "metrics.csv", "run.json"}
 DEFAULT_WAVELENGTHS_NM = (F_LINE_NM, D_LINE_NM, C_LINE_NM)
 
 
@@ -233,6 +237,11 @@ def _check_layer_place(layer: Layer, t: KeyReader, system: LensSystem, housing: 
 
 def _viewer(t: KeyReader, placement: Placement, housing: Housing, layers) -> Viewer:
     name = t.string("name", required=True)
+    if (not _VIEWER_NAME.fullmatch(name) or name.endswith(".")
+            or name.lower() in _RESERVED_NAMES):
+        raise t.error("name", name[:60], "a viewer's name becomes a folder name: 1 to 64 "
+                      "letters, digits, spaces, '.', '_' or '-', starting with a letter or "
+                      "digit, not ending with '.', and not metrics.json, metrics.csv or run.json")
     eye = t.vector("eye_mm", 3, required=True)
     origin = placement.axes()[0]
     look = t.vector("look_at_mm", 3, tuple(origin))

@@ -1,0 +1,121 @@
+"""The output folder: checked before any work, held by one run at a time, never over an input.
+
+A command that writes files calls :func:`output_folder` once its inputs are read and
+checked. It refuses, in one line, a folder that cannot be one (empty name, a file, a path
+too long, nowhere writable) and a folder that holds any of the run's input files, so no
+output can replace an input. While the run writes, a lock file keeps a second run out of
+the same folder; temporary files left by a killed run are removed first. If the run ends
+in an input error and the folder did not exist before, the folder is removed again, so a
+refused run leaves nothing behind.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import errno
+import os
+import shutil
+from pathlib import Path
+
+from cloakview.optics.errors import InputError
+from cloakview.render.files import TEMP_MARK
+
+LOCK_NAME = ".cloakview-lock"
+_NAME_MAX = 255
+
+
+def check(out, inputs=()) -> Path:
+    """The output folder as an absolute path, or a one-line :class:`InputError`.
+
+    Parameters
+    ----------
+    out : str or Path
+        The folder (created if missing).
+    inputs : iterable of Path
+        Every file the run reads; none may lie inside ``out``.
+    """
+    text = str(out)
+    if not text.strip() or "\0" in text:
+        raise InputError("out", text, "must name a folder")
+    folder = Path(text).expanduser().absolute()
+    if len(os.fsencode(str(folder))) > 3000 or any(
+            len(os.fsencode(part)) > _NAME_MAX for part in folder.parts):
+        raise InputError("out", text[:80] + ("..." if len(text) > 80 else ""),
+                         f"path too long (each name at most {_NAME_MAX} bytes)")
+    if folder.exists() and not folder.is_dir():
+        raise InputError("out", text, "is a file, not a folder; give a folder")
+    existing = next(p for p in (folder, *folder.parents) if p.exists())
+    if not existing.is_dir() or not os.access(existing, os.W_OK | os.X_OK):
+        raise InputError("out", text, f"cannot write in {existing}; choose a writable folder")
+    resolved = folder.resolve()
+    for path in inputs:
+        source = Path(path).resolve()
+        if source.is_relative_to(resolved):
+            raise InputError("out", text, f"holds the input file {source.name}; write the "
+                             "outputs to a folder that holds none of the inputs")
+    return folder
+
+
+def _running(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    return True
+
+
+def _lock(folder: Path) -> Path:
+    lock = folder / LOCK_NAME
+    for _ in range(2):
+        try:
+            handle = os.open(lock, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
+        except FileExistsError:
+            try:
+                pid = int(lock.read_text().strip() or 0)
+            except (OSError, ValueError):
+                pid = 0
+            if pid and pid != os.getpid() and _running(pid):
+                raise InputError("out", str(folder), f"another cloakview run (process {pid}) "
+                                 "is writing into this folder; wait for it to finish or "
+                                 "choose another folder") from None
+            lock.unlink(missing_ok=True)  # left by a run that was killed
+            continue
+        with os.fdopen(handle, "w") as stream:
+            stream.write(str(os.getpid()))
+        return lock
+    raise InputError("out", str(folder), "could not take the folder's lock file")
+
+
+def _remove_stale_temporaries(folder: Path) -> None:
+    for path in folder.rglob(f".*{TEMP_MARK}*"):
+        with contextlib.suppress(OSError):
+            path.unlink()
+
+
+@contextlib.contextmanager
+def output_folder(out, inputs=()):
+    """Check ``out`` (see :func:`check`), create it, hold its lock while the run writes.
+
+    Yields the folder as a :class:`Path`.
+    """
+    folder = check(out, inputs)
+    missing = [p for p in (folder, *folder.parents) if not p.exists()]
+    created = missing[-1] if missing else None
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as error:
+        reason = "path too long" if error.errno == errno.ENAMETOOLONG else error.strerror
+        raise InputError("out", str(out), f"cannot create the folder ({reason})") from None
+    lock = _lock(folder)
+    try:
+        _remove_stale_temporaries(folder)
+        yield folder
+    except InputError:
+        if created is not None:
+            lock.unlink(missing_ok=True)
+            shutil.rmtree(created, ignore_errors=True)
+        raise
+    finally:
+        lock.unlink(missing_ok=True)
