@@ -41,6 +41,11 @@ from cloakview.optics.system import LensSystem, PlacedLens
 from cloakview.optics.trace import Rays, trace
 
 DESIGN_WAVELENGTHS_NM = (F_LINE_NM, D_LINE_NM, C_LINE_NM)
+#: Longest inner gap laid out [mm]: 100 m, beyond any exhibit (our own limit; it also
+#: keeps focal lengths that nearly agree, where the gap diverges, out of the arithmetic).
+MAX_INNER_GAP_MM = 100_000.0
+#: Longest focal length accepted [mm] (1 km; our own limit against overflow).
+MAX_FOCAL_MM = 1_000_000.0
 
 
 def ideal_spacings(f_outer_mm: float, f_inner_mm: float) -> tuple[float, float]:
@@ -53,6 +58,9 @@ def ideal_spacings(f_outer_mm: float, f_inner_mm: float) -> tuple[float, float]:
     """
     f1 = require_finite_positive("f_outer", f_outer_mm)
     f2 = require_finite_positive("f_inner", f_inner_mm)
+    for key, value in (("f_outer", f1), ("f_inner", f2)):
+        if value > MAX_FOCAL_MM:
+            raise InputError(key, value, f"must be at most {MAX_FOCAL_MM / 1000:g} m")
     if f1 <= f2:
         why = "infinite" if f1 == f2 else "negative"
         raise InputError(
@@ -60,7 +68,16 @@ def ideal_spacings(f_outer_mm: float, f_inner_mm: float) -> tuple[float, float]:
             f"must be longer than f_inner = {f2:g} mm, or the inner gap "
             f"2 f2 (f1 + f2) / (f1 - f2) would be {why}",
         )
-    return f1 + f2, 2.0 * f2 * (f1 + f2) / (f1 - f2)
+    ratio = f2 / f1
+    t2 = 2.0 * f2 * (1.0 + ratio) / (1.0 - ratio)
+    if not t2 <= MAX_INNER_GAP_MM:
+        raise InputError(
+            "f_outer", f_outer_mm,
+            f"is too close to f_inner = {f2:.12g} mm: the inner gap 2 f2 (f1 + f2) / (f1 - f2) "
+            f"would be {t2 / 1000:.3g} m (at most {MAX_INNER_GAP_MM / 1000:g} m); make the "
+            "focal lengths differ more",
+        )
+    return f1 + f2, t2
 
 
 @dataclass(frozen=True)

@@ -8,6 +8,9 @@ or wrote in a file that cannot describe a real device raises
 
 from __future__ import annotations
 
+#: Longest echo of a bad value in an error message [characters].
+_VALUE_CHARS = 80
+
 
 class InputError(ValueError):
     """Bad input, described in one line: where, which key, which value, which rule.
@@ -33,7 +36,11 @@ class InputError(ValueError):
 
     def _line(self) -> str:
         where = f"{self.source}: " if self.source else ""
-        return f"{where}{self.key} = {self.value!r}: {self.rule}"
+        value = repr(self.value)
+        if len(value) > _VALUE_CHARS:  # say what was meant, not every character of it
+            value = value[:_VALUE_CHARS] + f"... ({len(value)} characters)"
+        key = " ".join(str(self.key).split())  # a key holding a newline stays on one line
+        return f"{where}{key} = {' '.join(value.split(chr(10)))}: {self.rule}"
 
     def with_source(self, source: str) -> InputError:
         """Return the same error attributed to ``source`` (kept if already set)."""

@@ -1,8 +1,8 @@
-"""The tracer's compiled kernel: the same physics as ``optics.trace``'s numpy path, per ray.
+"""The tracer's compiled kernel: the physics of ``cloakview.optics.trace``'s numpy path, per ray.
 
 One loop over rays (parallel across cores) and, inside it, one walk over the
 elements, so each ray's state stays in registers instead of streaming every
-intermediate array through memory. The numpy path in ``optics.trace`` is the
+intermediate array through memory. The numpy path in ``cloakview.optics.trace`` is the
 reference; ``tests/test_trace_kernel.py`` holds the two together (positions to
 1e-9 mm, fates exactly). This module does no I/O and imports nothing of cloakview's
 but the fate codes.

@@ -17,6 +17,29 @@ from pathlib import Path
 
 import imageio.v3 as iio
 import numpy as np
+from cloakview.optics.errors import InputError
+
+#: Largest text input read [bytes] (scene files, inventories, path files; our own limit).
+MAX_TEXT_BYTES = 10_000_000
+
+
+def read_text(path: Path, key: str, what: str) -> str:
+    """A text input file decoded as UTF-8 (a byte-order mark is allowed), or an InputError.
+
+    ``key`` names the option or file key that gave the path; ``what`` says what the file is.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise InputError(key, str(path), f"{what} not found")
+    if path.stat().st_size > MAX_TEXT_BYTES:
+        raise InputError(key, str(path), f"{what} is larger than "
+                         f"{MAX_TEXT_BYTES / 1e6:g} MB; is it the right file?")
+    try:
+        return path.read_bytes().decode("utf-8-sig")
+    except UnicodeDecodeError as error:
+        raise InputError(key, str(path), f"{what} is not UTF-8 text (byte {error.start}); save "
+                         "it as UTF-8") from None
+
 
 #: Marks the temporary files of :func:`atomic_write` (a killed run's are removed later).
 TEMP_MARK = ".cloakview-tmp-"

@@ -8,6 +8,7 @@ focal length is checked against them) and ``edge_thickness_mm`` (checked).
 from __future__ import annotations
 
 import csv
+import io
 import math
 from dataclasses import dataclass
 from pathlib import Path
@@ -16,6 +17,7 @@ from cloakview.optics.errors import InputError
 from cloakview.optics.lenses import ThickLens, lens_with_thickness
 from cloakview.optics.materials import material_by_name
 from cloakview.optics.system import PlacedLens
+from cloakview.render.files import read_text
 
 REQUIRED = ("id", "focal_length_mm", "diameter_mm", "center_thickness_mm", "shape",
             "material", "price", "quantity")
@@ -52,9 +54,8 @@ def _number(text, where, column, positive=True):
 def load_inventory(path) -> list[Item]:
     """Read and check an inventory CSV; errors name the line and column."""
     path = Path(path)
-    if not path.is_file():
-        raise InputError("inventory", str(path), "file not found")
-    with open(path, newline="", encoding="utf-8") as handle:
+    text = read_text(path, "inventory", "inventory file")
+    with io.StringIO(text, newline="") as handle:
         reader = csv.DictReader(handle)
         columns = reader.fieldnames or []
         missing = [c for c in REQUIRED if c not in columns]

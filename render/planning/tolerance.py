@@ -19,6 +19,7 @@ import json
 from dataclasses import dataclass
 
 import numpy as np
+from cloakview.optics.errors import InputError
 from cloakview.optics.lenses import ThickLens, ThinLens
 from cloakview.optics.system import LensSystem
 from cloakview.render.frame.views import render_viewer
@@ -71,7 +72,13 @@ def build_job(state, job: dict) -> dict:
     scene, pyramids = state
     tol = Tolerances(**job["tol"])
     rng = np.random.default_rng(job["seed"])
-    built = dataclasses.replace(scene, system=perturbed(scene.system, tol, rng))
+    try:
+        system = perturbed(scene.system, tol, rng)
+    except InputError as error:  # e.g. a focal-length error no lens of that thickness has
+        return {"seed": job["seed"], **job["tol"], "hidden_fraction": None,
+                "shift_median_arcmin": None, "verdict": f"no such lens: {error.rule}",
+                "passes": False}
+    built = dataclasses.replace(scene, system=system)
     viewer = dataclasses.replace(scene.viewers[0], width_px=job["size"][0],
                                  height_px=job["size"][1])
     m = render_viewer(built, viewer, pyramids, views=(), supersample=1).metrics

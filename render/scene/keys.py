@@ -12,6 +12,14 @@ import math
 from cloakview.optics.errors import InputError
 
 
+def _finite(value) -> bool:
+    """Whether a TOML number is finite as a float (a huge integer is not)."""
+    try:
+        return math.isfinite(float(value))
+    except OverflowError:
+        return False
+
+
 class KeyReader:
     """One TOML table being read: tracks its path for messages and rejects unknown keys."""
 
@@ -57,9 +65,9 @@ class KeyReader:
             return None
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise self.error(name, value, "must be a number")
-        value = float(value)
-        if not math.isfinite(value):
+        if not _finite(value):
             raise self.error(name, value, "must be a finite number")
+        value = float(value)
         if positive and value <= 0:
             raise self.error(name, value, "must be greater than 0")
         if (low is not None and value < low) or (high is not None and value > high):
@@ -103,7 +111,7 @@ class KeyReader:
             return None
         if (not isinstance(value, (list, tuple)) or len(value) != length
                 or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
-                           and math.isfinite(v) for v in value)):
+                           and _finite(v) for v in value)):
             raise self.error(name, value, f"must be a list of {length} finite numbers in mm")
         return tuple(float(v) for v in value)
 

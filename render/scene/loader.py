@@ -25,6 +25,7 @@ from cloakview.optics.materials import C_LINE_NM, D_LINE_NM, F_LINE_NM, material
 from cloakview.optics.surfaces import Housing
 from cloakview.optics.system import LensSystem, PlacedLens
 from cloakview.render.color import hex_color_linear
+from cloakview.render.files import read_text
 from cloakview.render.scene.keys import KeyReader
 from cloakview.render.scene.model import (
     ROLES,
@@ -304,12 +305,11 @@ def load_scene(path, allow_outside_paths: bool = False, ideal: bool | None = Non
     """
     path = Path(path)
     source = str(path)
-    if not path.is_file():
-        raise InputError("scene", source, "scene file not found")
+    text = read_text(path, "scene", "scene file")
     try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as error:
-        raise InputError("scene", source, f"not valid TOML ({error})") from None
+        data = tomllib.loads(text)
+    except (tomllib.TOMLDecodeError, ValueError) as error:  # ValueError: over-long integers
+        raise InputError("scene", source, f"not valid TOML ({str(error)[:120]})") from None
     root = KeyReader(data, "", source)
     render = KeyReader(root.get("render", {}), "render", source)
     settings = _settings(render)

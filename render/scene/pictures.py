@@ -1,16 +1,52 @@
-"""Pictures of a scene's layers: reading a PNG or JPEG as premultiplied linear RGBA."""
+"""Pictures of a scene's layers: reading a PNG or JPEG as premultiplied linear RGBA.
+
+The header is read first: a picture larger than the pixel budget, or with more than one
+frame, is refused before anything is decoded, so a small file that declares a huge image
+cannot exhaust memory. Every still-image colour mode is mapped to RGB and alpha: grey,
+grey with alpha, palette (with its transparency), 1-bit, 16-bit grey, RGB, RGBA; CMYK and
+other colour spaces are converted to RGB without colour management.
+"""
 
 from __future__ import annotations
 
+import warnings
 from pathlib import Path
 
-import imageio.v3 as iio
 import numpy as np
 from cloakview.optics.errors import InputError
 from cloakview.render.color import srgb_to_linear
+from PIL import Image, UnidentifiedImageError
 
-#: Largest texture side we accept [pixels]; larger files are refused as absurd.
+#: Largest texture side [pixels].
 MAX_TEXTURE_SIDE = 16384
+#: Largest texture [pixels]: 25 million (e.g. 6000 x 4000) keeps one decoded layer, as
+#: float32 RGBA with its mip levels, near 530 MB (our own budget).
+MAX_TEXTURE_PIXELS = 25_000_000
+_CONVERT_TO_RGBA = {"1": "LA", "P": "RGBA", "PA": "RGBA", "CMYK": "RGB", "YCbCr": "RGB",
+                    "LAB": "RGB", "HSV": "RGB", "La": "LA", "RGBa": "RGBA", "RGBX": "RGB"}
+
+
+def _straight_rgba(image: Image.Image) -> np.ndarray:
+    """Straight (not premultiplied) sRGB-encoded RGBA in [0, 1], float32, (H, W, 4)."""
+    mode = _CONVERT_TO_RGBA.get(image.mode)
+    if mode is not None:
+        image = image.convert(mode)
+    if image.mode.startswith("I"):  # 16-bit grey (I;16, I;16B, ...) or 32-bit holding it
+        grey = np.clip(np.asarray(image, dtype=np.float32) / 65535.0, 0.0, 1.0)
+        channels = [grey, grey, grey, np.ones_like(grey)]
+    elif image.mode in ("L", "LA"):
+        values = np.asarray(image, dtype=np.float32) / 255.0
+        grey = values if values.ndim == 2 else values[..., 0]
+        alpha = np.ones_like(grey) if values.ndim == 2 else values[..., 1]
+        channels = [grey, grey, grey, alpha]
+    elif image.mode in ("RGB", "RGBA"):
+        values = np.asarray(image, dtype=np.float32) / 255.0
+        alpha = values[..., 3] if image.mode == "RGBA" else np.ones(values.shape[:2],
+                                                                      np.float32)
+        channels = [values[..., 0], values[..., 1], values[..., 2], alpha]
+    else:
+        raise ValueError(image.mode)
+    return np.stack(channels, axis=-1)
 
 
 def read_texture(path: Path, key: str, source: str) -> np.ndarray:
@@ -19,34 +55,37 @@ def read_texture(path: Path, key: str, source: str) -> np.ndarray:
     Raises
     ------
     InputError
-        If the file is missing, unreadable, or absurdly large.
+        If the file is missing, unreadable, animated, or over the pixel budget.
     """
     if not path.is_file():
         raise InputError(key, str(path), "image file not found", source)
-    encoded = path.read_bytes()
-    unreadable = InputError(key, str(path), "cannot read this image; use a PNG or JPEG file",
-                            source)
+    budget = (f"each side at most {MAX_TEXTURE_SIDE} pixels and at most "
+              f"{MAX_TEXTURE_PIXELS / 1e6:g} million pixels in all; scale the picture down")
     try:
-        shape = iio.improps(encoded).shape
-    except Exception:  # noqa: BLE001 - any decoder failure is the user's file
-        raise unreadable from None
-    if len(shape) < 2 or max(shape[:2]) > MAX_TEXTURE_SIDE or min(shape[:2]) < 1:
-        raise InputError(key, str(path), f"image is {shape[:2]} pixels; each side must be "
-                         f"between 1 and {MAX_TEXTURE_SIDE}", source)
-    try:
-        data = iio.imread(encoded)
-    except Exception:  # noqa: BLE001
-        raise unreadable from None
-    if data.ndim == 2:
-        data = np.stack([data] * 3, axis=-1)
-    if data.dtype == np.uint16:
-        scale = 65535.0
-    elif data.dtype == np.uint8:
-        scale = 255.0
-    else:
-        raise InputError(key, str(path), f"unsupported pixel type {data.dtype}; use 8- or "
-                         "16-bit PNG or JPEG", source)
-    data = data.astype(np.float32) / scale
-    rgb = srgb_to_linear(data[..., :3])
-    alpha = data[..., 3:4] if data.shape[-1] == 4 else np.ones_like(rgb[..., :1])
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", Image.DecompressionBombWarning)
+            image = Image.open(path)  # reads the header only
+        with image:
+            width, height = image.size
+            if (max(width, height) > MAX_TEXTURE_SIDE or width * height > MAX_TEXTURE_PIXELS
+                    or min(width, height) < 1):
+                raise InputError(key, str(path), f"image is {width}x{height} pixels; {budget}",
+                                 source)
+            if getattr(image, "n_frames", 1) > 1:
+                raise InputError(key, str(path), "is an animated image; save the one frame "
+                                 "to use as a still PNG", source)
+            image.load()
+            straight = _straight_rgba(image)
+    except Image.DecompressionBombError:
+        raise InputError(key, str(path), f"image is far too large; {budget}", source) from None
+    except InputError:
+        raise
+    except ValueError:
+        raise InputError(key, str(path), f"unsupported pixel format ({image.mode}); use an "
+                         "8- or 16-bit PNG or a JPEG", source) from None
+    except (OSError, UnidentifiedImageError, SyntaxError, EOFError):
+        raise InputError(key, str(path), "cannot read this image; use a PNG or JPEG file",
+                         source) from None
+    rgb = srgb_to_linear(straight[..., :3])
+    alpha = straight[..., 3:4]
     return np.ascontiguousarray(np.concatenate([rgb * alpha, alpha], axis=-1))

@@ -21,6 +21,7 @@ import os
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from pathlib import Path
 
+from cloakview.optics.errors import InputError
 from cloakview.render.files import program_version, write_json
 
 _WORKER = {}
@@ -140,6 +141,8 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
             todo.append((key, job))
     reused = len(results)
     failures = []
+    if workers is not None and not (isinstance(workers, int) and workers >= 1):
+        raise InputError("workers", workers, "must be a whole number, 1 or more")
     workers = min(workers or os.cpu_count() or 1, os.cpu_count() or 1)
     if todo and (workers == 1 or len(todo) == 1):
         state = setup(*setup_args)

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import csv
 import dataclasses
+import io
 import math
 from pathlib import Path
 
@@ -17,7 +18,7 @@ import imageio.v2 as iio2
 import imageio.v3 as iio
 import numpy as np
 from cloakview.optics.errors import InputError
-from cloakview.render.files import atomic_write, write_png
+from cloakview.render.files import atomic_write, read_text, write_png
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.overlays import caption
 from cloakview.render.frame.views import render_viewer
@@ -54,10 +55,9 @@ def crouch_path(scene: Scene, distance_mm, from_mm, to_mm, count) -> np.ndarray:
 
 def path_from_csv(path: Path) -> np.ndarray:
     """Eye points from a CSV file with columns x_mm, y_mm, z_mm (room frame)."""
-    if not path.is_file():
-        raise InputError("--path", str(path), "path file not found")
+    text = read_text(path, "path", "path file")
     points = []
-    with open(path, newline="", encoding="utf-8") as handle:
+    with io.StringIO(text, newline="") as handle:
         reader = csv.DictReader(handle)
         missing = {"x_mm", "y_mm", "z_mm"} - set(reader.fieldnames or [])
         if missing:
