@@ -101,7 +101,7 @@ def test_unreadable_image(tmp_path):
 def test_absurdly_large_image(tmp_path):
     path = write_scene(tmp_path)
     iio.imwrite(tmp_path / "art" / "poster.png", np.zeros((1, 16385, 3), np.uint8))
-    with pytest.raises(InputError, match=r"1x16385 pixels; each side at most 16384 pixels"):
+    with pytest.raises(InputError, match=r"16385x1 pixels; each side at most 16384 pixels"):
         load_scene(path)
 
 
