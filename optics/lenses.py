@@ -298,7 +298,13 @@ def _shape_factor(shape) -> float:
             raise InputError(
                 "shape", shape, f"unknown lens shape; use one of {names} or a shape factor"
             ) from None
-    q = float(shape)
+    if isinstance(shape, bool) or not isinstance(shape, (int, float)):
+        raise InputError("shape", shape, f"must be one of {', '.join(SHAPES)} or a shape "
+                         "factor (a number)")
+    try:
+        q = float(shape)
+    except OverflowError:
+        q = math.inf
     if not math.isfinite(q):
         raise InputError("shape", shape, "shape factor must be finite")
     return q

@@ -145,3 +145,33 @@ def test_render_from_a_typed_eye_point(tmp_path, capsys):
     assert not (out / "custom" / "naked.png").exists()
     assert main(["render", str(path), "--eye", "0,1150", "--out", str(out)]) == 2
     assert "--eye = '0,1150': must be three finite numbers" in capsys.readouterr().err
+
+
+def test_a_render_over_the_memory_budget_is_refused_before_it_starts(tmp_path, capsys):
+    path = write_scene(tmp_path, layers=RING, width=640, height=360)
+    out = tmp_path / "o"
+    assert main(["--memory-mb", "64", "render", str(path), "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "viewer 'on-axis'" in err and "over the budget of 64 MB" in err
+    assert "rendering [" not in err and not out.exists()
+    scene = load_scene(path)
+    wide = dataclasses.replace(scene.viewers[0], width_px=8192, pupil_samples=64)
+    with pytest.raises(ValueError, match="rays per image row"):
+        render_viewer(scene, wide, supersample=8)
+
+
+def test_metrics_from_every_kth_ray_match_the_full_frame(tmp_path, monkeypatch):
+    # A frame with more rays than the record budget keeps a regular sample of them; the
+    # same eye must get (nearly) the same numbers either way.
+    path = write_scene(tmp_path, layers=RING, width=192, height=128, supersample=2)
+    scene = load_scene(path)
+    full = render_viewer(scene, scene.viewers[0], views=()).metrics
+    from cloakview.render.frame import views
+
+    monkeypatch.setattr(views, "RECORD_RAYS", 25_000)  # 98,304 rays: every 4th is kept
+    sampled = render_viewer(scene, scene.viewers[0], views=()).metrics
+    assert sampled["hidden_fraction"] == full["hidden_fraction"]  # coverage is per pixel
+    for key in ("median", "p95"):
+        assert sampled["background_shift_arcmin"][key] == pytest.approx(
+            full["background_shift_arcmin"][key], rel=0.05)
+    assert sampled["transmittance"] == pytest.approx(full["transmittance"], rel=0.01)

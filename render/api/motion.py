@@ -185,14 +185,14 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
     started = time.perf_counter()
     scene = load_scene(scene_path, allow_outside_paths=allow_outside_paths, ideal=ideal)
     named = eye_heights(heights)
-    xs = sl.grid(*lateral_range_mm, "lateral_range_mm")
-    ds = sl.grid(*distance_range_mm, "distance_range_mm")
+    xs = sl.grid(*lateral_range_mm, "lateral_range_mm", -20_000.0, 20_000.0)
+    ds = sl.grid(*distance_range_mm, "distance_range_mm", -100_000.0, 100_000.0)
     if min(ds) <= 0:
         raise InputError("distance_range_mm", list(distance_range_mm),
                          "distances from the panel must be greater than 0")
     axis = scene.placement.axis_height_mm
     hs = sl.grid(*(height_range_mm or (min(900.0, axis - 400.0), max(1800.0, axis + 400.0),
-                                        25.0)), "height_range_mm")
+                                        25.0)), "height_range_mm", 0.0, 5000.0)
     floor = sl.floor_jobs(xs, ds, list(named.values()), size_px)
     side = sl.elevation_jobs(hs, ds, size_px)
     outfolder.check(out, scene.sources)  # before the sweep, not after it

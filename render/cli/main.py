@@ -8,6 +8,8 @@ that set it.
 
 from __future__ import annotations
 
+import math
+import os
 import re
 import sys
 
@@ -25,6 +27,9 @@ def build_parser() -> Parser:
     parser = Parser(prog="cloakview", description=(
         "Preview a four-lens 'vanishing' exhibit with real lenses: lay it out, render what "
         "visitors see, and measure how well the effect works."))
+    parser.add_argument("--memory-mb", type=float, metavar="MB",
+                        help="memory one render may use [MB], checked before it starts "
+                        "(default: $CLOAKVIEW_MEMORY_MB, else half of this machine's RAM)")
     parser.add_argument("--version", action="version",
                         version=f"cloakview {program_version()}",
                         help="print the installed version and exit")
@@ -55,6 +60,10 @@ def main(argv=None) -> int:
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
+        if args.memory_mb is not None:
+            if not (math.isfinite(args.memory_mb) and args.memory_mb >= 64):
+                raise UsageError(f"--memory-mb {args.memory_mb:g}: give at least 64 MB")
+            os.environ["CLOAKVIEW_MEMORY_MB"] = str(args.memory_mb)  # sweep workers too
         return args.run(args)
     except InputError as error:
         if debug:

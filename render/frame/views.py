@@ -10,10 +10,12 @@ would be seen without lenses, and which parts of it vanish or still show).
 from __future__ import annotations
 
 import dataclasses
+import os
 import time
 from dataclasses import dataclass
 
 import numpy as np
+from cloakview.optics.errors import InputError
 from cloakview.optics.materials import nearest_to_d_line
 from cloakview.optics.surfaces import Refracting
 from cloakview.optics.trace import Rays
@@ -43,16 +45,75 @@ class ViewerRender:
 
 
 #: Rays per band: frames are traced and composited in bands of rows of about this many
-#: rays, so a 4K frame stays within a few hundred megabytes (our own choice).
+#: rays, so a band's arrays stay within a few hundred megabytes (our own choice).
 BAND_RAYS = 400_000
+#: Most rays whose landing points the metrics keep per view and wavelength. A frame with
+#: more keeps every k-th ray of the frame (the same rays in every view), so the metrics'
+#: medians, percentiles and means come from a regular sample of at least this many rays
+#: (our own choice; it bounds their memory at about 64 MB per view and wavelength).
+RECORD_RAYS = 2_000_000
+#: Most rays in one band: one output row (all its samples) must fit.
+MAX_ROW_RAYS = 2_000_000
+#: Estimated bytes per output pixel of a whole render (images, coverages, 8-bit views)
+#: and per ray of a band (the tracer's and compositor's arrays), measured on the
+#: gallery sample (our own calibration; see memory_estimate_bytes).
+PIXEL_BYTES = 130
+BAND_RAY_BYTES = 400
+RECORD_BYTES = 32
+
+
+def record_stride(viewer: Viewer, supersample: int) -> int:
+    """Keep every k-th ray of a frame for the metrics, so at most :data:`RECORD_RAYS`."""
+    rays = viewer.width_px * viewer.height_px * supersample ** 2 * max(viewer.pupil_samples, 1)
+    return max(1, -(-rays // RECORD_RAYS))
+
+
+def memory_estimate_bytes(viewer: Viewer, supersample: int, wavelengths: int) -> int:
+    """Peak memory of :func:`render_viewer` beyond the scene, estimated before allocating."""
+    rays = viewer.width_px * viewer.height_px * supersample ** 2 * max(viewer.pupil_samples, 1)
+    band = min(rays, max(BAND_RAYS, viewer.width_px * supersample ** 2
+                         * max(viewer.pupil_samples, 1)))
+    records = min(rays, RECORD_RAYS) * RECORD_BYTES * (min(wavelengths, 3) + 1)
+    return viewer.width_px * viewer.height_px * PIXEL_BYTES + band * BAND_RAY_BYTES + records
+
+
+def memory_budget_bytes() -> int:
+    """The memory one render may use: ``$CLOAKVIEW_MEMORY_MB``, else half the machine's RAM."""
+    text = os.environ.get("CLOAKVIEW_MEMORY_MB")
+    if text:
+        return int(float(text) * 2 ** 20)
+    return os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES") // 2
+
+
+def check_memory(viewer: Viewer, supersample: int, wavelengths: int) -> None:
+    """Refuse, before allocating, a render that would not fit the memory budget.
+
+    Raises
+    ------
+    InputError
+        Naming the viewer, what it would need and what to lower.
+    """
+    per_row = viewer.width_px * supersample ** 2 * max(viewer.pupil_samples, 1)
+    what = (f"{viewer.width_px}x{viewer.height_px} pixels, supersample {supersample}, "
+            f"{viewer.pupil_samples} pupil samples")
+    if per_row > MAX_ROW_RAYS:
+        raise InputError(f"viewer '{viewer.name}'", what, f"needs {per_row:,} rays per image "
+                         f"row, at most {MAX_ROW_RAYS:,}: lower the width, the supersampling "
+                         "or the pupil samples")
+    need, budget = memory_estimate_bytes(viewer, supersample, wavelengths), memory_budget_bytes()
+    if need > budget:
+        raise InputError(f"viewer '{viewer.name}'", what, f"needs about {need / 2**20:,.0f} MB, "
+                         f"over the budget of {budget / 2**20:,.0f} MB (CLOAKVIEW_MEMORY_MB or "
+                         "--memory-mb sets it): lower the size, supersampling or pupil samples")
 
 
 @dataclass
 class RayRecord:
     """What the metrics need of the kept rays at one wavelength, over all bands.
 
-    ``index`` numbers the rays of the frame (the same in every view); the cloaked view
-    keeps only rays that pass through the device, the others keep every ray.
+    ``index`` numbers the rays of the frame (the same in every view), in increasing
+    order; only rays whose index is a multiple of the frame's record stride are kept. The
+    cloaked view keeps those that pass through the device; the reference keeps them all.
     """
 
     index: np.ndarray
@@ -83,7 +144,8 @@ def _subset(rays: Rays, rows: np.ndarray) -> Rays:
     return Rays(*(getattr(rays, f.name)[rows] for f in dataclasses.fields(Rays)))
 
 
-def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample) -> TracedView:
+def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
+                keep_records: bool) -> TracedView:
     """Trace and composite one view band by band; keep what the metrics need.
 
     With real lenses, the design wavelength is traced first for every ray; the other
@@ -94,7 +156,8 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample) -> Tra
     dispersive = setup.lenses and any(isinstance(s, Refracting) for s in scene.system.surfaces)
     design = nearest_to_d_line(wavelengths)
     order = sorted(wavelengths if dispersive else (design,), key=lambda w: w != design)
-    kept = {design, min(order), max(order)}
+    kept = {design, min(order), max(order)} if keep_records else set()
+    stride = record_stride(viewer, supersample)
     wall = _front_background(scene).name
     h, w = viewer.height_px, viewer.width_px
     image = np.zeros((h, w, 3), np.float32)
@@ -128,10 +191,13 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample) -> Tra
             weight = weights[list(wavelengths).index(wl)] if dispersive else 1.0
             image[rows] += resolve_samples(rgb, shape, supersample) * weight
             if wl in kept:
-                through = np.flatnonzero(sub_map.through_device) if setup.lenses else slice(None)
+                chosen = (offset + ids) % stride == 0
+                if setup.lenses:
+                    chosen &= sub_map.through_device
+                pick = np.flatnonzero(chosen)
                 crossing = sub_map.result.crossings[wall]
-                parts[wl].append((offset + ids[through], sub_map.result.throughput[through],
-                                  crossing.x[through], crossing.y[through]))
+                parts[wl].append((offset + ids[pick], sub_map.result.throughput[pick],
+                                  crossing.x[pick], crossing.y[pick]))
         offset += grid.count
     records = {wl: RayRecord(*(np.concatenate(column) for column in zip(*chunks,
                                                                         strict=True)))
@@ -161,10 +227,11 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
     start = time.perf_counter()
     pyramids = pyramids or TexturePyramids(scene)
     ss = supersample or scene.settings.supersample
+    check_memory(viewer, ss, len(scene.settings.wavelengths_nm))
     traced = {}
     for name, setup in SETUPS.items():
         traced[name] = _trace_view(scene, viewer, setup, scene.settings.wavelengths_nm,
-                                   pyramids, ss)
+                                   pyramids, ss, keep_records=name != "naked")
         if progress:
             progress(f"{viewer.name}: {name}")
     srgb = {name: linear_to_srgb(t.image) for name, t in traced.items()}
@@ -191,7 +258,8 @@ def _measure(scene, viewer, traced, srgb) -> dict:
     hidden, ratio = m.hidden_fraction(cloaked.hidden, traced["naked"].hidden)
     wall = _front_background(scene)
     eye = scene.placement.to_device(np.asarray(viewer.eye_mm, float))
-    rx, ry = ref.wall_x[seen.index], ref.wall_y[seen.index]
+    at = np.searchsorted(ref.index, seen.index)  # the same rays in the reference view
+    rx, ry = ref.wall_x[at], ref.wall_y[at]
     ok = ~np.isnan(seen.wall_x) & ~np.isnan(rx)
     shift = m.angular_shift_arcmin(eye, seen.wall_x[ok], seen.wall_y[ok], rx[ok], ry[ok],
                                    wall.z_mm)

@@ -88,11 +88,15 @@ def measure_point(state, job: dict) -> dict:
             "class": classify(metrics)}
 
 
-def grid(start: float, stop: float, step: float, key: str) -> list[float]:
-    """Inclusive range of sweep values [mm]."""
+def grid(start: float, stop: float, step: float, key: str, low: float = -1e5,
+         high: float = 1e5) -> list[float]:
+    """Inclusive range of sweep values [mm], all within ``[low, high]``."""
     if not (step > 0 and stop >= start and (stop - start) / step <= 400):
         raise InputError(key, f"{start:g}:{stop:g}:{step:g}", "must be START:STOP:STEP in mm "
                          "with STEP > 0, STOP >= START and at most 400 steps")
+    if not (low <= start and stop <= high):
+        raise InputError(key, f"{start:g}:{stop:g}:{step:g}", f"must lie within {low:g} to "
+                         f"{high:g} mm")
     count = int(math.floor((stop - start) / step + 1e-9)) + 1
     return [start + i * step for i in range(count)]
 
