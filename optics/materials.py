@@ -227,6 +227,13 @@ MATERIALS: dict[str, Material] = {
 }
 
 
+#: Spans of n_d and V_d accepted for a material given as ``ND/VD``: optical glasses and
+#: plastics lie within about n_d 1.3-2.1 and V_d 15-100 (common practice, e.g. the
+#: n_d-V_d glass chart in W. J. Smith, Modern Optical Engineering, 4th ed., ch. 7).
+ND_RANGE = (1.3, 2.1)
+VD_RANGE = (15.0, 100.0)
+
+
 def material_by_name(name: str, key: str = "material") -> Material:
     """Return a named material, or one built from ``"ND/VD"`` (e.g. ``"1.52/60"``).
 
@@ -249,6 +256,10 @@ def material_by_name(name: str, key: str = "material") -> Material:
         except ValueError:
             nd = vd = None
         if nd is not None:
+            if not (ND_RANGE[0] <= nd <= ND_RANGE[1] and VD_RANGE[0] <= vd <= VD_RANGE[1]):
+                raise InputError(key, name, f"n_d must lie in {ND_RANGE[0]:g}-{ND_RANGE[1]:g} "
+                                 f"and V_d in {VD_RANGE[0]:g}-{VD_RANGE[1]:g}, the span of "
+                                 "real optical glasses and plastics")
             return Material(text, Cauchy.from_abbe(nd, vd), 2.5, "user n_d and V_d")
     known = ", ".join(sorted(MATERIALS))
     raise InputError(key, name, f"unknown material; use one of {known}, or ND/VD like 1.52/60")

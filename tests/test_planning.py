@@ -83,3 +83,36 @@ def test_render_top_design_in_a_scene(tmp_path):
     assert (out / "top_design.png").is_file()
     metrics = json.loads((out / "top_design_metrics.json").read_text())
     assert metrics["hidden_fraction"] >= 0.95  # the ring sits in this design's cloaked zone
+
+
+def test_inventory_radii_take_the_usual_signs_and_a_byte_order_mark(tmp_path):
+    # Biconvex, R1 = +50, R2 = -50, d = 10 mm, n = 1.5 would give f = 51.7 mm (Hecht, Optics,
+    # thick-lens equation); here acrylic, so check only that the signs are read as written.
+    text = ("\ufeffid,focal_length_mm,diameter_mm,center_thickness_mm,shape,material,price,"
+            "quantity,r1_mm,r2_mm\nB,102.5,40,6,biconvex,acrylic,10,2,100,-100\n")
+    path = tmp_path / "bom.csv"
+    path.write_bytes(text.encode("utf-8"))
+    [item] = load_inventory(path)
+    assert item.lens.r1_mm == 100 and item.lens.r2_mm == -100
+
+
+@pytest.mark.parametrize(("data", "match"), [
+    ("id,focal\u00e9".encode("latin-1"), r"inventory file is not UTF-8 text \(byte 8\)"),
+    ("id\n".encode("utf-16"), "not UTF-8 text"),
+    (HEADER.encode() + b"A,400,100,9.5,plano-convex,acrylic,85,4,0,1\n",
+     "more values than the 8 columns"),
+])
+def test_inventories_that_are_not_utf8_text_are_one_clean_line(tmp_path, data, match):
+    path = tmp_path / "bad.csv"
+    path.write_bytes(data)
+    with pytest.raises(ValueError, match=match) as error:
+        load_inventory(path)
+    assert "\n" not in str(error.value)
+
+
+def test_a_zero_radius_names_its_column_once(tmp_path):
+    path = _write(tmp_path, HEADER.strip() + ",r1_mm,r2_mm\nA,400,100,9.5,biconvex,acrylic,"
+                  "85,4,0,-400\n")
+    with pytest.raises(ValueError) as error:
+        load_inventory(path)
+    assert str(error.value).count("column r1_mm") == 1

@@ -51,6 +51,25 @@ def _number(text, where, column, positive=True):
     return value
 
 
+def _radius(text, where: str, column: str) -> float:
+    """A face radius [mm], or ``flat``.
+
+    The usual signs: negative when the centre of curvature lies on the visitor's side, so a
+    biconvex lens has r1 > 0 > r2 (E. Hecht, Optics, 5th ed., sec. 5.2.3).
+    """
+    word = (text or "").strip().lower()
+    if word in ("flat", "inf", "plane"):
+        return math.inf
+    try:
+        value = float(word)
+    except ValueError:
+        value = math.nan
+    if not math.isfinite(value) or value == 0:
+        raise InputError(f"{where}, column {column}", text, "must be a non-zero radius in mm "
+                         "(negative when its centre lies on the visitor's side) or flat")
+    return value
+
+
 def load_inventory(path) -> list[Item]:
     """Read and check an inventory CSV; errors name the line and column."""
     path = Path(path)
@@ -69,6 +88,9 @@ def load_inventory(path) -> list[Item]:
         items, seen = [], set()
         for line, row in enumerate(reader, start=2):
             where = f"{path}:{line}"
+            if None in row:
+                raise InputError(where, ",".join(row[None]), f"has more values than the "
+                                 f"{len(columns)} columns of the first line")
             items.append(_item(row, where))
             if items[-1].id in seen:
                 raise InputError(f"{where}, column id", items[-1].id, "ids must be unique")
@@ -89,11 +111,12 @@ def _item(row: dict, where: str) -> Item:
     quantity = _number(row["quantity"], where, "quantity", positive=False)
     if quantity != int(quantity):
         raise InputError(f"{where}, column quantity", row["quantity"], "must be a whole number")
+    radii = None
+    if row.get("r1_mm") and row.get("r2_mm"):
+        radii = [_radius(row[k], where, k) for k in ("r1_mm", "r2_mm")]
     try:
         material = material_by_name(row["material"], "material")
-        if row.get("r1_mm") and row.get("r2_mm"):
-            radii = [math.inf if row[k].strip().lower() in ("flat", "inf") else
-                     _number(row[k], where, k, positive=False) for k in ("r1_mm", "r2_mm")]
+        if radii is not None:
             lens = ThickLens(radii[0], radii[1], thickness, diameter, material)
         else:
             lens = lens_with_thickness(f, diameter, material, row["shape"], thickness)
