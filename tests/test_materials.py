@@ -77,8 +77,8 @@ def test_cauchy_through_points_is_exact():
 @pytest.mark.parametrize("name, match", [
     ("unobtainium", "unknown material"),
     ("1.5/abc", "unknown material"),
-    ("0.9/60", "between 1 and 3"),
-    ("1.5/500", "Abbe number"),
+    ("0.9/60", "n_d must lie in 1.3-2.1"),
+    ("1.5/500", "V_d in 15-100"),
 ])
 def test_bad_material_names(name, match):
     with pytest.raises(InputError, match=match):
