@@ -45,8 +45,16 @@ def read_text(path: Path, key: str, what: str) -> str:
 TEMP_MARK = ".cloakview-tmp-"
 
 
+#: Paths written by :func:`atomic_write` while an output folder records them (see
+#: :mod:`cloakview.render.outfolder`); None when nothing records.
+WRITTEN: list[Path] | None = None
+
+
 def atomic_write(path: Path, write) -> None:
     """Call ``write(temp_path)`` then rename the temporary file onto ``path``."""
+    path = Path(path)
+    if WRITTEN is not None:
+        WRITTEN.append(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     handle, temp = tempfile.mkstemp(prefix=f".{path.name[:100]}{TEMP_MARK}", suffix=path.suffix,
                                     dir=path.parent)

@@ -18,9 +18,13 @@ import shutil
 from pathlib import Path
 
 from cloakview.optics.errors import InputError
+from cloakview.render import files
 from cloakview.render.files import TEMP_MARK
 
 LOCK_NAME = ".cloakview-lock"
+#: Lists what the last run wrote at the top of the folder, so the next run into the same
+#: folder removes it first and the folder never mixes two runs' outputs.
+MANIFEST_NAME = ".cloakview-outputs"
 _NAME_MAX = 255
 
 
@@ -94,6 +98,30 @@ def _remove_stale_temporaries(folder: Path) -> None:
             path.unlink()
 
 
+def _remove_previous_outputs(folder: Path) -> None:
+    """Remove what the folder's last run wrote (its manifest's names), nothing else."""
+    manifest = folder / MANIFEST_NAME
+    if not manifest.is_file():
+        return
+    for name in manifest.read_text(encoding="utf-8", errors="replace").splitlines():
+        path = folder / name
+        if not name or "/" in name or name in (".", "..", LOCK_NAME, MANIFEST_NAME):
+            continue
+        if path.is_dir() and not path.is_symlink():
+            shutil.rmtree(path, ignore_errors=True)
+        else:
+            with contextlib.suppress(OSError):
+                path.unlink()
+    manifest.unlink(missing_ok=True)
+
+
+def _write_manifest(folder: Path, written: list[Path]) -> None:
+    names = sorted({p.resolve().relative_to(folder.resolve()).parts[0] for p in written
+                    if p.resolve().is_relative_to(folder.resolve())} - {MANIFEST_NAME})
+    files.atomic_write(folder / MANIFEST_NAME, lambda temp: Path(temp).write_text(
+        "".join(f"{name}\n" for name in names), encoding="utf-8"))
+
+
 @contextlib.contextmanager
 def output_folder(out, inputs=()):
     """Check ``out`` (see :func:`check`), create it, hold its lock while the run writes.
@@ -109,13 +137,19 @@ def output_folder(out, inputs=()):
         reason = "path too long" if error.errno == errno.ENAMETOOLONG else error.strerror
         raise InputError("out", str(out), f"cannot create the folder ({reason})") from None
     lock = _lock(folder)
+    written: list[Path] = []
     try:
         _remove_stale_temporaries(folder)
+        _remove_previous_outputs(folder)
+        files.WRITTEN = written
         yield folder
+        files.WRITTEN = None
+        _write_manifest(folder, written)
     except InputError:
         if created is not None:
             lock.unlink(missing_ok=True)
             shutil.rmtree(created, ignore_errors=True)
         raise
     finally:
+        files.WRITTEN = None
         lock.unlink(missing_ok=True)

@@ -98,3 +98,31 @@ def test_a_refused_run_removes_the_folder_it_created(tmp_path, capsys):
                  "--out", str(out)]) == 2
     assert "no design meets every constraint" in capsys.readouterr().err
     assert not (tmp_path / "new").exists()
+
+
+def test_a_second_run_replaces_the_first_runs_outputs_and_keeps_other_files(tmp_path):
+    scene = write_scene(tmp_path / "s", layers=RING, width=32, height=24)
+    text = scene.read_text()
+    out = tmp_path / "o"
+    assert main(["render", str(scene), "--views", "cloaked", "--out", str(out), "--json"]) == 0
+    (out / "my-notes.txt").write_text("the planner's own file")
+    scene.write_text(text.replace('name = "on-axis"', 'name = "renamed"'))
+    assert main(["render", str(scene), "--views", "cloaked", "--out", str(out), "--json"]) == 0
+    names = sorted(p.name for p in out.iterdir() if not p.name.startswith("."))
+    assert names == ["metrics.csv", "metrics.json", "my-notes.txt", "renamed", "run.json"]
+
+
+def test_a_walk_run_again_reuses_its_frames_from_the_cache(tmp_path, capsys):
+    import json
+
+    scene = write_scene(tmp_path / "s", layers=RING, width=32, height=24)
+    argv = ["walk", str(scene), "--frames", "3", "--workers", "1", "--json"]
+    assert main([*argv, "--out", str(tmp_path / "a")]) == 0
+    first = json.loads(capsys.readouterr().out)
+    assert first["reused"] == 0
+    assert main([*argv, "--out", str(tmp_path / "b")]) == 0
+    second = json.loads(capsys.readouterr().out)
+    assert second["reused"] == 3
+    for i in range(3):
+        name = f"frames/frame_{i:05d}.png"
+        assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes()

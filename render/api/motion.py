@@ -9,6 +9,7 @@ Workers load the scene from its file, so these functions take the scene file's p
 
 from __future__ import annotations
 
+import base64
 import dataclasses
 import time
 from pathlib import Path
@@ -16,7 +17,7 @@ from pathlib import Path
 import numpy as np
 from cloakview.optics.errors import InputError
 from cloakview.render import outfolder
-from cloakview.render.files import run_record, write_csv, write_json, write_png
+from cloakview.render.files import atomic_write, run_record, write_csv, write_json, write_png
 from cloakview.render.frame.metrics import WORKS_DEFINITION
 from cloakview.render.progress import Progress
 from cloakview.render.proposal import charts
@@ -102,25 +103,24 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
     inputs = [*scene.sources, *([Path(path)] if str(path) not in wk.PATHS else [])]
     with outfolder.output_folder(out, inputs) as out:
         size = size_px or (base.width_px, base.height_px)
-        frames_dir = out / "frames"
         jobs = [{"index": i, "eye": [float(v) for v in eye], "size": list(size),
                  "supersample": supersample or scene.settings.supersample,
-                 "side_by_side": side_by_side,
-                 "frame_path": str(frames_dir / f"frame_{i:05d}.png")}
-                for i, eye in enumerate(eyes)]
+                 "side_by_side": side_by_side} for i, eye in enumerate(eyes)]
+        frames = [out / "frames" / f"frame_{i:05d}.png" for i in range(len(jobs))]
+
+        def write_frame(job, row):  # as each result arrives, so frames never pile up
+            data = base64.b64decode(row["png"])
+            atomic_write(frames[job["index"]], lambda temp: Path(temp).write_bytes(data))
+            return {k: v for k, v in row.items() if k != "png"}
+
         bar = Progress(len(jobs), "walk-by", enabled=progress)
         setup_args = (str(scene_path), allow_outside_paths, ideal)
         rows, reused = run_jobs(wk.render_frame, jobs, "walk", wk.setup_worker, setup_args,
                                 context=fingerprint(scene.sources, ideal=ideal,
                                                     allow_outside=allow_outside_paths),
-                                workers=workers, progress=bar, fresh=fresh)
-        missing = [j for j in jobs if not Path(j["frame_path"]).is_file()]
-        if missing:  # result cached but picture removed: draw those frames again
-            state = wk.setup_worker(*setup_args)
-            for job in missing:
-                wk.render_frame(state, job)
-        wk.write_videos([Path(j["frame_path"]) for j in jobs], out / "walk.mp4",
-                        out / "walk.gif", fps)
+                                workers=workers, progress=bar, fresh=fresh,
+                                consume=write_frame)
+        wk.write_videos(frames, out / "walk.mp4", out / "walk.gif", fps)
         write_csv(out / "walk.csv", rows)
         summary = {"frames": len(rows), "fps": fps,
                    "works_frames": sum(r["verdict"].startswith("works") for r in rows),

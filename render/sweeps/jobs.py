@@ -91,7 +91,7 @@ def _run_one(fn, job):
 
 def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: str = "",
              workers=None, progress=None, fresh: bool = False,
-             cache: Path | None = None) -> tuple[list[dict], int]:
+             cache: Path | None = None, consume=None) -> tuple[list[dict], int]:
     """Run ``fn(state, job)`` for every job; return (results in job order, how many reused).
 
     Parameters
@@ -115,6 +115,10 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
         Run every job again instead of reusing cached results.
     cache : Path, optional
         Cache folder (default :func:`cache_root`).
+    consume : callable, optional
+        ``consume(job, result)`` is called with each result as soon as it is there (run
+        or read from the cache), in this process; what it returns is kept instead (e.g. a
+        frame written to its file and dropped from memory).
 
     Raises
     ------
@@ -125,13 +129,16 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
     folder.mkdir(parents=True, exist_ok=True)
     keys = [job_key(fn, job, context) for job in jobs]
     results: dict[str, dict] = {}
+    def keep(job, result):
+        return consume(job, result) if consume else result
+
     todo, queued = [], set()
     for key, job in zip(keys, jobs, strict=True):
         path = folder / f"{key}.json"
         if not fresh and path.is_file():
             try:
-                results[key] = json.loads(path.read_text())
-            except (OSError, json.JSONDecodeError):
+                results[key] = keep(job, json.loads(path.read_text()))
+            except (OSError, json.JSONDecodeError, ValueError, KeyError):
                 todo.append((key, job))  # a damaged file is simply done again
                 continue
             if progress:
@@ -152,7 +159,7 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
             except Exception as error:  # noqa: BLE001 - reported with the job's inputs
                 failures.append((job, f"{type(error).__name__}: {error}"))
                 continue
-            results[key] = _store(folder, key, result, progress)
+            results[key] = keep(job, _store(folder, key, result, progress))
     elif todo:
         threads = max(1, (os.cpu_count() or 1) // workers)
         # "spawn": a forked child of a process whose compiled kernels already ran
@@ -168,7 +175,7 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
                 except Exception as error:  # noqa: BLE001 - reported with the job's inputs
                     failures.append((job, f"{type(error).__name__}: {error}"))
                     continue
-                results[key] = _store(folder, key, result, progress)
+                results[key] = keep(job, _store(folder, key, result, progress))
     if failures:
         raise JobsFailed(failures, len(jobs))
     return [results[key] for key in keys], reused

@@ -7,6 +7,7 @@ runs on all cores and an interrupted one picks up where it stopped.
 
 from __future__ import annotations
 
+import base64
 import csv
 import dataclasses
 import io
@@ -18,7 +19,7 @@ import imageio.v2 as iio2
 import imageio.v3 as iio
 import numpy as np
 from cloakview.optics.errors import InputError
-from cloakview.render.files import atomic_write, read_text, write_png
+from cloakview.render.files import atomic_write, read_text
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.overlays import caption
 from cloakview.render.frame.views import render_viewer
@@ -125,7 +126,12 @@ def setup_worker(scene_path: str, allow_outside: bool, ideal: bool | None):
 
 
 def render_frame(state, job: dict) -> dict:
-    """Render one frame (cloaked, optionally beside naked), caption it, save it as PNG."""
+    """Render one frame (cloaked, optionally beside naked) and caption it.
+
+    Returns the frame's numbers and, under ``"png"``, the captioned picture as PNG bytes in
+    base64, so the job writes no file: whoever runs the sweep writes the frames (and the
+    cache keeps them).
+    """
     scene, pyramids = state
     base = scene.viewers[0]
     viewer = dataclasses.replace(frame_viewer(scene, base, job["eye"]),
@@ -144,11 +150,12 @@ def render_frame(state, job: dict) -> dict:
              f"{'-' if shift is None else format(shift['median'], '.1f')} arcmin",
              m["verdict"] + ("   (left: through lenses, right: lenses removed)"
                              if job["side_by_side"] else "")]
-    write_png(Path(job["frame_path"]), caption(image, lines))
+    encoded = iio.imwrite("<bytes>", caption(image, lines), extension=".png")
     return {"frame": job["index"], "eye_x_mm": eye[0], "eye_y_mm": eye[1], "eye_z_mm": eye[2],
             "hidden_fraction": m["hidden_fraction"], "background_ssim": m["background_ssim"],
             "shift_median_arcmin": shift and shift["median"],
-            "through_pixels": m["through_pixels"], "verdict": m["verdict"]}
+            "through_pixels": m["through_pixels"], "verdict": m["verdict"],
+            "png": base64.b64encode(encoded).decode("ascii")}
 
 
 def write_videos(frames: list[Path], mp4: Path, gif: Path, fps: float,
