@@ -153,7 +153,8 @@ def make_case(folder: Path, seed: int) -> list[str]:
     path_csv = folder / "path.csv"
     path_csv.write_text(PATH_CSV)
     command = rng.choice(list(OPTIONS))
-    target = rng.randrange(5)
+    benign = rng.random() < 0.25  # a quarter of the cases stay valid: the success paths
+    target = 4 if benign else rng.randrange(5)
     if target == 0 and command not in ("design", "choose"):
         scene.write_text(_mutate_text(scene.read_text(), rng))
     elif target == 1 and command not in ("design", "choose"):
@@ -166,7 +167,7 @@ def make_case(folder: Path, seed: int) -> list[str]:
     elif target == 3 and command == "walk" and rng.random() < 0.5:
         path_csv.write_text(_mutate_csv(PATH_CSV, rng))
     args = list(BASE[command])
-    for _ in range(rng.choice((1, 1, 2))):
+    for _ in range(0 if benign else rng.choice((1, 1, 2))):
         option = rng.choice(OPTIONS[command])
         value = rng.choice(ODD_OPTION)
         if option == "--path" and rng.random() < 0.5:
@@ -181,7 +182,7 @@ def make_case(folder: Path, seed: int) -> list[str]:
         args += ["--inventory", str(inventory), "--outer", "O180", "--inner", "I60"]
     positional = {"design": [], "choose": [str(inventory)]}.get(command, [str(scene)])
     out = folder / "out"
-    if rng.random() < 0.05:
+    if not benign and rng.random() < 0.05:
         out = rng.choice([folder / "exhibit", folder / "lenses.csv", folder / "exhibit" / "art"])
     if command == "design":
         return [command, *args]

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import base64
 import dataclasses
+import os
 import time
 from pathlib import Path
 
@@ -36,6 +37,11 @@ SWEEP_SIZE_PX = (96, 54)
 DEFAULT_HEIGHTS = ("seated", "child", "women", "men")
 
 
+def scheduler_from(scheduler: str | None) -> str | None:
+    """The Dask scheduler to use: the one given, else ``$CLOAKVIEW_SCHEDULER``, else none."""
+    return scheduler or os.environ.get("CLOAKVIEW_SCHEDULER") or None
+
+
 def _base_viewer(scene, viewer: str | None):
     return scene.viewer(viewer) if viewer else scene.viewers[0]
 
@@ -54,7 +60,8 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
          size_px: tuple[int, int] | None = None, supersample: int | None = None,
          side_by_side: bool = False, ideal: bool | None = None,
          allow_outside_paths: bool = False, workers: int | None = None,
-         fresh: bool = False, progress: bool = False) -> dict:
+         fresh: bool = False, scheduler: str | None = None,
+         progress: bool = False) -> dict:
     """Render a walk-by: one frame per eye point, as MP4, GIF, PNG frames and a CSV.
 
     Parameters
@@ -76,6 +83,9 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
         Video length [s] and frame rate [1/s]; ``frames`` overrides their product.
     fresh : bool
         Render every frame again instead of reusing cached results.
+    scheduler : str, optional
+        Run the jobs on Dask distributed: a scheduler address (``tcp://host:port``) or
+        ``"local-cluster"`` (default ``$CLOAKVIEW_SCHEDULER``, else the local process pool).
 
     Returns
     -------
@@ -119,7 +129,8 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
                                 context=fingerprint(scene.sources, ideal=ideal,
                                                     allow_outside=allow_outside_paths),
                                 workers=workers, progress=bar, fresh=fresh,
-                                consume=write_frame)
+                                consume=write_frame, files=scene.sources,
+                                scheduler=scheduler_from(scheduler))
         wk.write_videos(frames, out / "walk.mp4", out / "walk.gif", fps)
         write_csv(out / "walk.csv", rows)
         summary = {"frames": len(rows), "fps": fps,
@@ -157,7 +168,7 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
                height_range_mm=None, size_px: tuple[int, int] = SWEEP_SIZE_PX,
                ideal: bool | None = None, allow_outside_paths: bool = False,
                workers: int | None = None, fresh: bool = False,
-               progress: bool = False) -> dict:
+               scheduler: str | None = None, progress: bool = False) -> dict:
     """Map from where on the floor, and at which eye height, the effect works.
 
     Parameters
@@ -172,6 +183,9 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
         of the axis if wider, in 25 mm steps).
     fresh : bool
         Render every point again instead of reusing cached results.
+    scheduler : str, optional
+        Run the jobs on Dask distributed: a scheduler address (``tcp://host:port``) or
+        ``"local-cluster"`` (default ``$CLOAKVIEW_SCHEDULER``, else the local process pool).
     out : path
         Folder for ``floor_<height>.png`` per height, ``elevation.png``,
         ``sightlines.csv``, ``sightlines.json`` and ``run.json``.
@@ -201,7 +215,8 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
                             (str(scene_path), allow_outside_paths, ideal),
                             context=fingerprint(scene.sources, ideal=ideal,
                                                 allow_outside=allow_outside_paths),
-                            workers=workers, progress=bar, fresh=fresh)
+                            workers=workers, progress=bar, fresh=fresh,
+                            files=scene.sources, scheduler=scheduler_from(scheduler))
     floor_rows, side_rows = rows[:len(floor)], rows[len(floor):]
     with outfolder.output_folder(out, scene.sources) as out:
         by_height = {}

@@ -9,7 +9,7 @@ from pathlib import Path
 import numpy as np
 from cloakview.optics.errors import InputError
 from cloakview.render import outfolder
-from cloakview.render.api.motion import check_viewing_box
+from cloakview.render.api.motion import check_viewing_box, scheduler_from
 from cloakview.render.files import run_record, write_csv, write_json, write_png
 from cloakview.render.frame.metrics import WORKS_DEFINITION
 from cloakview.render.frame.views import render_viewer
@@ -46,7 +46,8 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
            budget: float | None = None, distance_mm: float = 1500.0,
            viewing_box_mm=(0.0, 0.0, 0.0), min_object_mm=(0.0, 0.0),
            render_in: str | Path | None = None, workers: int | None = None,
-           fresh: bool = False, progress: bool = False) -> dict:
+           fresh: bool = False, scheduler: str | None = None,
+           progress: bool = False) -> dict:
     """Rank four-lens designs made from a lens inventory under the planner's constraints.
 
     Parameters
@@ -68,6 +69,9 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
         ``top_design.png`` and ``top_design_vanish.png``.
     fresh : bool
         Evaluate every pair again instead of reusing cached results.
+    scheduler : str, optional
+        Run the jobs on Dask distributed: a scheduler address (``tcp://host:port``) or
+        ``"local-cluster"`` (default ``$CLOAKVIEW_SCHEDULER``, else the local process pool).
 
     Returns
     -------
@@ -99,7 +103,8 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
     inputs = [Path(inventory), *(render_scene.sources if render_scene else ())]
     outfolder.check(out, inputs)
     bar = Progress(search.pair_count(items), "design search", enabled=progress)
-    rows, reused = search.search(inventory, items, constraints, workers, bar, fresh)
+    rows, reused = search.search(inventory, items, constraints, workers, bar, fresh,
+                                 scheduler_from(scheduler))
     feasible = [r for r in rows if r["reason"] is None]
     if not feasible:
         raise InputError("constraints", str(inventory), search.relax_hint(rows, constraints))
@@ -146,7 +151,7 @@ def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
               builds: int = 40, seed: int = 1, size_px: tuple[int, int] = BUILD_SIZE_PX,
               ideal: bool | None = None, allow_outside_paths: bool = False,
               workers: int | None = None, fresh: bool = False,
-              progress: bool = False) -> dict:
+              scheduler: str | None = None, progress: bool = False) -> dict:
     """Monte Carlo over builds: yield, which tolerance matters most, tolerances for 95 %.
 
     Parameters
@@ -162,6 +167,9 @@ def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
         Random seed (0 or more): the same seed gives the same builds.
     fresh : bool
         Render every build again instead of reusing cached results.
+    scheduler : str, optional
+        Run the jobs on Dask distributed: a scheduler address (``tcp://host:port``) or
+        ``"local-cluster"`` (default ``$CLOAKVIEW_SCHEDULER``, else the local process pool).
     out : path
         Folder for ``tolerance.json``, ``builds.csv``, ``histograms.png``, ``run.json``.
 
@@ -184,7 +192,8 @@ def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
         tol, builds, seed, size_px, sl.setup_worker,
         (str(scene_path), allow_outside_paths, ideal),
         context=fingerprint(scene.sources, ideal=ideal, allow_outside=allow_outside_paths),
-        workers=workers, progress=bar, fresh=fresh)
+        workers=workers, progress=bar, fresh=fresh, files=scene.sources,
+        scheduler=scheduler_from(scheduler))
     summary.update(seed=seed, definition=WORKS_DEFINITION, reused=reused,
                    seconds=round(time.perf_counter() - started, 2))
     with outfolder.output_folder(out, scene.sources) as folder:

@@ -18,7 +18,7 @@ def _walk(args) -> int:
         frames=args.frames, size_px=opt.size(args.size) if args.size else None,
         supersample=args.supersample, side_by_side=args.side_by_side,
         ideal=True if args.ideal else None, allow_outside_paths=args.allow_outside_paths,
-        workers=args.workers, fresh=args.fresh, progress=not args.json)
+        workers=args.workers, fresh=args.fresh, scheduler=args.scheduler, progress=not args.json)
     summary.pop("rows")
     if args.json:
         print(json.dumps(summary, indent=2))
@@ -41,7 +41,7 @@ def _sightlines(args) -> int:
         if args.height_range else None,
         size_px=opt.size(args.size), ideal=True if args.ideal else None,
         allow_outside_paths=args.allow_outside_paths, workers=args.workers,
-        fresh=args.fresh, progress=not args.json)
+        fresh=args.fresh, scheduler=args.scheduler, progress=not args.json)
     if args.json:
         print(json.dumps({k: v for k, v in result.items() if k != "points"}, indent=2))
         return 0

@@ -142,9 +142,14 @@ def add_out(parser, default: str, what: str) -> None:
 
 
 def add_workers(parser) -> None:
-    """``--workers N`` and ``--fresh`` for sweeps."""
+    """``--workers N``, ``--scheduler ADDRESS`` and ``--fresh`` for sweeps."""
     parser.add_argument("--workers", type=int, metavar="N",
                         help="worker processes, at most one per core (default: one per core)")
+    parser.add_argument("--scheduler", metavar="ADDRESS",
+                        help="run the jobs on Dask distributed: a scheduler's tcp://HOST:PORT, "
+                        "or local-cluster for a cluster on this machine (default: "
+                        "$CLOAKVIEW_SCHEDULER, else a process pool here); needs "
+                        "pip install 'cloakview[cluster]'")
     parser.add_argument("--fresh", action="store_true",
                         help="compute every job again instead of reusing cached results "
                         "(the cache is keyed on the input files' bytes and every option, so "

@@ -29,7 +29,7 @@ def _choose(args) -> int:
         distance_mm=args.distance,
         viewing_box_mm=opt.box(args.viewing_box, "--viewing-box"),
         min_object_mm=_min_object(args.min_object), render_in=args.render_in,
-        workers=args.workers, fresh=args.fresh, progress=not args.json)
+        workers=args.workers, fresh=args.fresh, scheduler=args.scheduler, progress=not args.json)
     feasible = [r for r in result["designs"] if r["reason"] is None]
     if args.json:
         print(json.dumps(feasible[:args.top], indent=2))
@@ -56,7 +56,7 @@ def _tolerance(args) -> int:
         args.scene, out=args.out, **opt.tolerances(args), builds=args.builds,
         seed=args.seed, size_px=opt.size(args.size), ideal=True if args.ideal else None,
         allow_outside_paths=args.allow_outside_paths, workers=args.workers,
-        fresh=args.fresh, progress=not args.json)
+        fresh=args.fresh, scheduler=args.scheduler, progress=not args.json)
     summary.pop("rows")
     if args.json:
         print(json.dumps(summary, indent=2))

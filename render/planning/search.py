@@ -128,7 +128,8 @@ def evaluate_job(state, job: dict) -> dict:
 
 
 def search(inventory_path, items: list[Item], constraints: Constraints, workers=None,
-           progress=None, fresh: bool = False) -> tuple[list[dict], int]:
+           progress=None, fresh: bool = False,
+           scheduler: str | None = None) -> tuple[list[dict], int]:
     """Evaluate every pair with the longer focal length outside; feasible ones first, ranked.
 
     The pairs run on the sweep job map (parallel, resumable; cached under the inventory's
@@ -141,7 +142,8 @@ def search(inventory_path, items: list[Item], constraints: Constraints, workers=
     rows, reused = run_jobs(evaluate_job, jobs, "designs", setup_worker,
                             (str(inventory_path), limits),
                             context=fingerprint([inventory_path], constraints=limits),
-                            workers=workers, progress=progress, fresh=fresh)
+                            workers=workers, progress=progress, fresh=fresh,
+                            files=[inventory_path], scheduler=scheduler)
     feasible = [r for r in rows if r["reason"] is None]
     for r in feasible:
         r["pareto"] = not any(_dominates(o, r) for o in feasible if o is not r)

@@ -134,13 +134,16 @@ def summarise(tol: Tolerances, groups: dict[str, list[dict]]) -> dict:
 
 def analyse(tol: Tolerances, builds: int, seed: int, size, setup, setup_args=(), *,
             context: str, workers=None, progress=None,
-            fresh: bool = False) -> tuple[dict, list, int]:
+            fresh: bool = False, files=(),
+            scheduler: str | None = None) -> tuple[dict, list, int]:
     """Run every build group of :func:`plan` on the job map.
 
     ``setup(*setup_args)`` gives the worker state (scene, texture pyramids); ``context``
     fingerprints the scene and options behind it (see
     :func:`cloakview.render.sweeps.jobs.fingerprint`). Builds that two groups share run
-    once. Returns (summary, the builds at ``tol``, how many results were reused).
+    once. ``files`` and ``scheduler`` are as for
+    :func:`cloakview.render.sweeps.jobs.run_jobs`. Returns (summary, the builds at ``tol``,
+    how many results were reused).
     """
     groups = plan(tol, builds, seed, size)
     unique = {}
@@ -152,7 +155,8 @@ def analyse(tol: Tolerances, builds: int, seed: int, size, setup, setup_args=(),
         progress.total = len(jobs)
     results, reused = run_jobs(build_job, jobs, "tolerance", setup, setup_args,
                                context=context, workers=workers, progress=progress,
-                               fresh=fresh)
+                               fresh=fresh, files=files,
+                               scheduler=scheduler)
     by_job = {json.dumps(j, sort_keys=True): r for j, r in zip(jobs, results, strict=True)}
     rows = {name: [by_job[json.dumps(j, sort_keys=True)] for j in group]
             for name, group in groups.items()}

@@ -72,12 +72,12 @@ def job_key(fn, job: dict, context: str) -> str:
 
 
 def _init(setup, setup_args, threads):
-    _limit_threads(threads)
+    limit_threads(threads)
     _WORKER["state"] = setup(*setup_args)
 
 
-def _limit_threads(threads: int) -> None:
-    """Keep a worker to its share of the cores (numba's and OpenCV's thread pools)."""
+def limit_threads(threads: int) -> None:
+    """Keep a worker process to ``threads`` threads (numba's and OpenCV's thread pools)."""
     import cv2
     import numba
 
@@ -91,7 +91,8 @@ def _run_one(fn, job):
 
 def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: str = "",
              workers=None, progress=None, fresh: bool = False,
-             cache: Path | None = None, consume=None) -> tuple[list[dict], int]:
+             cache: Path | None = None, consume=None, scheduler: str | None = None,
+             files=()) -> tuple[list[dict], int]:
     """Run ``fn(state, job)`` for every job; return (results in job order, how many reused).
 
     Parameters
@@ -108,7 +109,8 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
         Fingerprint of everything outside the jobs that can change a result (see
         :func:`fingerprint`).
     workers : int, optional
-        Processes to use; default the machine's cores; 1 runs in this process.
+        Processes to use; default the machine's cores (at most that many); 1 runs in this
+        process. With ``scheduler="local-cluster"``, the cluster's workers.
     progress : callable, optional
         Called once per finished or reused job.
     fresh : bool
@@ -119,16 +121,26 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
         ``consume(job, result)`` is called with each result as soon as it is there (run
         or read from the cache), in this process; what it returns is kept instead (e.g. a
         frame written to its file and dropped from memory).
+    scheduler : str, optional
+        Run on Dask distributed instead of the local pool: a scheduler's address, or
+        ``"local-cluster"`` for a cluster on this machine (see
+        :mod:`cloakview.render.sweeps.cluster`).
+    files : sequence of Path
+        The input files ``setup`` reads; on a cluster they travel to the workers, so the
+        workers need no shared disk.
 
     Raises
     ------
     JobsFailed
         When any job raised; every other result is stored before.
+    InputError
+        For a bad ``workers`` value, or a scheduler that cannot be used.
     """
     folder = (cache or cache_root()) / "jobs" / kind
     folder.mkdir(parents=True, exist_ok=True)
     keys = [job_key(fn, job, context) for job in jobs]
     results: dict[str, dict] = {}
+
     def keep(job, result):
         return consume(job, result) if consume else result
 
@@ -147,38 +159,61 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
             queued.add(key)
             todo.append((key, job))
     reused = len(results)
-    failures = []
     if workers is not None and not (isinstance(workers, int) and workers >= 1):
         raise InputError("workers", workers, "must be a whole number, 1 or more")
-    workers = min(workers or os.cpu_count() or 1, os.cpu_count() or 1)
-    if todo and (workers == 1 or len(todo) == 1):
-        state = setup(*setup_args)
-        for key, job in todo:
-            try:
-                result = fn(state, job)
-            except Exception as error:  # noqa: BLE001 - reported with the job's inputs
-                failures.append((job, f"{type(error).__name__}: {error}"))
-                continue
+    if scheduler:
+        from cloakview.render.sweeps.cluster import run_on_cluster
+
+        finished = run_on_cluster(fn, todo, setup, setup_args, files, scheduler, workers)
+    else:
+        workers = min(workers or os.cpu_count() or 1, os.cpu_count() or 1)
+        if workers == 1 or len(todo) <= 1:
+            finished = _run_here(fn, todo, setup, setup_args)
+        else:
+            finished = _run_on_pool(fn, todo, setup, setup_args, workers)
+    failures = []
+    for key, job, result, error in finished:
+        if error is not None:
+            failures.append((job, error))
+        else:
             results[key] = keep(job, _store(folder, key, result, progress))
-    elif todo:
-        threads = max(1, (os.cpu_count() or 1) // workers)
-        # "spawn": a forked child of a process whose compiled kernels already ran
-        # threads is not safe; fresh interpreters are.
-        with ProcessPoolExecutor(max_workers=min(workers, len(todo)), initializer=_init,
-                                 initargs=(setup, setup_args, threads),
-                                 mp_context=multiprocessing.get_context("spawn")) as pool:
-            futures = {pool.submit(_run_one, fn, job): (key, job) for key, job in todo}
-            for future in as_completed(futures):
-                key, job = futures[future]
-                try:
-                    result = future.result()
-                except Exception as error:  # noqa: BLE001 - reported with the job's inputs
-                    failures.append((job, f"{type(error).__name__}: {error}"))
-                    continue
-                results[key] = keep(job, _store(folder, key, result, progress))
     if failures:
         raise JobsFailed(failures, len(jobs))
     return [results[key] for key in keys], reused
+
+
+def describe(error: BaseException) -> str:
+    """How a failed job is reported: the exception's type and message."""
+    return f"{type(error).__name__}: {error}"
+
+
+def _run_here(fn, todo, setup, setup_args):
+    """Run the jobs one after another in this process; yield (key, job, result, error)."""
+    if not todo:
+        return
+    state = setup(*setup_args)
+    for key, job in todo:
+        try:
+            yield key, job, fn(state, job), None
+        except Exception as error:  # noqa: BLE001 - reported with the job's inputs
+            yield key, job, None, describe(error)
+
+
+def _run_on_pool(fn, todo, setup, setup_args, workers):
+    """Run the jobs on a local process pool; yield (key, job, result, error) as they finish."""
+    threads = max(1, (os.cpu_count() or 1) // workers)
+    # "spawn": a forked child of a process whose compiled kernels already ran threads is
+    # not safe; fresh interpreters are.
+    with ProcessPoolExecutor(max_workers=min(workers, len(todo)), initializer=_init,
+                             initargs=(setup, setup_args, threads),
+                             mp_context=multiprocessing.get_context("spawn")) as pool:
+        futures = {pool.submit(_run_one, fn, job): (key, job) for key, job in todo}
+        for future in as_completed(futures):
+            key, job = futures[future]
+            try:
+                yield key, job, future.result(), None
+            except Exception as error:  # noqa: BLE001 - reported with the job's inputs
+                yield key, job, None, describe(error)
 
 
 def _store(folder: Path, key: str, result: dict, progress) -> dict:
