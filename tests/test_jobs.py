@@ -71,3 +71,24 @@ def test_an_edited_scene_picture_or_option_is_never_answered_from_the_cache(tmp_
     back = _sweep(scene, out)
     assert back["reused"] == distinct and back["points"] == first["points"]
     assert _sweep(scene, out, "--fresh")["reused"] == 0
+
+
+def test_an_edited_inventory_or_constraint_is_never_answered_from_the_cache(tmp_path):
+    inventory = tmp_path / "lenses.csv"
+    text = ("id,focal_length_mm,diameter_mm,center_thickness_mm,shape,material,price,quantity\n"
+            "O180,180,50,5.6,biconvex,acrylic,40,2\nI60,60,50,13.6,biconvex,acrylic,55,2\n")
+    inventory.write_text(text)
+    out = tmp_path / "out"
+
+    def choose(*extra):
+        assert main(["choose", str(inventory), "--workers", "1", "--out", str(out), "--json",
+                     *extra]) == 0
+        return json.loads((out / "designs.json").read_text())
+
+    first = choose()
+    assert first["reused"] == 0 and first["designs"][0]["cost"] == 2 * (40 + 55)
+    assert choose()["reused"] == 1
+    inventory.write_text(text.replace(",40,2", ",70,2"))  # a new price for the outer lens
+    again = choose()
+    assert again["reused"] == 0 and again["designs"][0]["cost"] == 2 * (70 + 55)
+    assert choose("--max-length", "5000")["reused"] == 0
