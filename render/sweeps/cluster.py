@@ -31,6 +31,8 @@ from cloakview.render.sweeps.jobs import describe, limit_threads
 #: Seconds to wait for a scheduler before giving up.
 CONNECT_TIMEOUT_S = 5
 LOCAL_CLUSTER = "local-cluster"
+#: Most jobs sent to a worker in one Dask task (our own choice, from benchmarks/cluster.py).
+CHUNK_JOBS = 32
 _STATES: dict[str, object] = {}
 
 
@@ -78,8 +80,16 @@ def _worker_state(setup, setup_args, files: dict[str, bytes], digest: str):
     return _STATES[digest]
 
 
-def _task(fn, job, setup, setup_args, files, digest):
-    return fn(_worker_state(setup, setup_args, files, digest), job)
+def _task(fn, jobs, setup, setup_args, files, digest):
+    """Run a chunk of jobs on one worker; a failing job does not stop the others."""
+    state = _worker_state(setup, setup_args, files, digest)
+    done = []
+    for job in jobs:
+        try:
+            done.append((fn(state, job), None))
+        except Exception as error:  # noqa: BLE001 - reported with the job's inputs
+            done.append((None, describe(error)))
+    return done
 
 
 def _client(distributed, scheduler: str, workers: int | None):
@@ -88,7 +98,7 @@ def _client(distributed, scheduler: str, workers: int | None):
         cluster = distributed.LocalCluster(
             n_workers=min(workers or os.cpu_count() or 1, os.cpu_count() or 1),
             threads_per_worker=1, processes=True, dashboard_address=":0",
-            silence_logs=logging.ERROR)
+            silence_logs=logging.CRITICAL)
         return distributed.Client(cluster), cluster
     try:
         return distributed.Client(scheduler, timeout=CONNECT_TIMEOUT_S), None
@@ -126,14 +136,21 @@ def run_on_cluster(fn, todo, setup, setup_args, files, scheduler: str, workers=N
     client, cluster = _client(distributed, scheduler, workers)
     try:
         shipped = client.scatter(data, broadcast=True, hash=False) if data else {}
-        futures = {client.submit(_task, fn, job, setup, args, shipped, digest, pure=False,
-                                 retries=1): (key, job) for key, job in todo}
+        # Jobs go in chunks, so Dask's few milliseconds per task are shared by several jobs,
+        # with chunks enough for every worker and a fine-grained progress bar.
+        count = max(1, len(client.scheduler_info()["workers"]))
+        size = max(1, min(CHUNK_JOBS, len(todo) // (8 * count)))
+        chunks = [todo[i:i + size] for i in range(0, len(todo), size)]
+        futures = {client.submit(_task, fn, [job for _, job in chunk], setup, args, shipped,
+                                 digest, pure=False, retries=1): chunk for chunk in chunks}
         for future in distributed.as_completed(futures):
-            key, job = futures[future]
+            chunk = futures[future]
             try:
-                yield key, job, future.result(), None
-            except Exception as error:  # noqa: BLE001 - reported with the job's inputs
-                yield key, job, None, describe(error)
+                done = future.result()
+            except Exception as error:  # noqa: BLE001 - e.g. a worker lost too often
+                done = [(None, describe(error))] * len(chunk)
+            for (key, job), (result, error) in zip(chunk, done, strict=True):
+                yield key, job, result, error
     finally:
         client.close()
         if cluster is not None:
