@@ -103,8 +103,8 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
         count = round(_finite("seconds", seconds, 0.0, 600.0) * fps)
     else:
         count = frames
-    if not 1 <= count <= 5000:
-        raise InputError("frames", count, "a video must have 1 to 5000 frames")
+    if isinstance(count, bool) or not isinstance(count, int) or not 1 <= count <= 5000:
+        raise InputError("frames", count, "a video must have 1 to 5000 frames (a whole number)")
     eyes = wk.eye_path(scene, path, count, distance_mm=_finite("distance_mm", distance_mm,
                                                                 1.0, 1e5),
                        height_mm=height, span_mm=_finite("span_mm", span_mm, 0.0, 1e5),
@@ -116,11 +116,11 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
         jobs = [{"index": i, "eye": [float(v) for v in eye], "size": list(size),
                  "supersample": supersample or scene.settings.supersample,
                  "side_by_side": side_by_side} for i, eye in enumerate(eyes)]
-        frames = [out / "frames" / f"frame_{i:05d}.png" for i in range(len(jobs))]
+        frame_files = [out / "frames" / f"frame_{i:05d}.png" for i in range(len(jobs))]
 
         def write_frame(job, row):  # as each result arrives, so frames never pile up
             data = base64.b64decode(row["png"])
-            atomic_write(frames[job["index"]], lambda temp: Path(temp).write_bytes(data))
+            atomic_write(frame_files[job["index"]], lambda temp: Path(temp).write_bytes(data))
             return {k: v for k, v in row.items() if k != "png"}
 
         bar = Progress(len(jobs), "walk-by", enabled=progress)
@@ -131,7 +131,7 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
                                 workers=workers, progress=bar, fresh=fresh,
                                 consume=write_frame, files=scene.sources,
                                 scheduler=scheduler_from(scheduler))
-        wk.write_videos(frames, out / "walk.mp4", out / "walk.gif", fps)
+        wk.write_videos(frame_files, out / "walk.mp4", out / "walk.gif", fps)
         write_csv(out / "walk.csv", rows)
         summary = {"frames": len(rows), "fps": fps,
                    "works_frames": sum(r["verdict"].startswith("works") for r in rows),
