@@ -23,19 +23,47 @@ from cloakview.optics.errors import InputError
 MAX_TEXT_BYTES = 10_000_000
 
 
+#: Longest name of one file or folder [bytes] (the usual file-system limit).
+NAME_MAX_BYTES = 255
+
+
+def check_path_text(text: str, key: str, source: str | None = None) -> Path:
+    """``text`` as a path, refused in one line when no file system could hold it."""
+    if not text or "\0" in text:
+        raise InputError(key, text, "must name a file", source)
+    if len(os.fsencode(text)) > 4000 or any(len(os.fsencode(part)) > NAME_MAX_BYTES
+                                             for part in Path(text).parts):
+        raise InputError(key, text, f"path too long (each name at most {NAME_MAX_BYTES} "
+                         "bytes)", source)
+    return Path(text)
+
+
+def require_file(path: Path, key: str, what: str, source: str | None = None) -> Path:
+    """``path`` if it is a readable file, else a one-line InputError saying why not."""
+    path = check_path_text(str(path), key, source)
+    try:
+        if path.is_file():
+            return path
+    except OSError as error:
+        raise InputError(key, str(path), f"cannot open the {what} ({error.strerror})",
+                         source) from None
+    raise InputError(key, str(path), f"{what} not found", source)
+
+
 def read_text(path: Path, key: str, what: str) -> str:
     """A text input file decoded as UTF-8 (a byte-order mark is allowed), or an InputError.
 
     ``key`` names the option or file key that gave the path; ``what`` says what the file is.
     """
-    path = Path(path)
-    if not path.is_file():
-        raise InputError(key, str(path), f"{what} not found")
-    if path.stat().st_size > MAX_TEXT_BYTES:
-        raise InputError(key, str(path), f"{what} is larger than "
-                         f"{MAX_TEXT_BYTES / 1e6:g} MB; is it the right file?")
+    path = require_file(Path(path), key, what)
     try:
+        if path.stat().st_size > MAX_TEXT_BYTES:
+            raise InputError(key, str(path), f"{what} is larger than "
+                             f"{MAX_TEXT_BYTES / 1e6:g} MB; is it the right file?")
         return path.read_bytes().decode("utf-8-sig")
+    except OSError as error:
+        raise InputError(key, str(path), f"cannot read the {what} ({error.strerror})") \
+            from None
     except UnicodeDecodeError as error:
         raise InputError(key, str(path), f"{what} is not UTF-8 text (byte {error.start}); save "
                          "it as UTF-8") from None

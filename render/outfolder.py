@@ -25,7 +25,6 @@ LOCK_NAME = ".cloakview-lock"
 #: Lists what the last run wrote at the top of the folder, so the next run into the same
 #: folder removes it first and the folder never mixes two runs' outputs.
 MANIFEST_NAME = ".cloakview-outputs"
-_NAME_MAX = 255
 
 
 def check(out, inputs=()) -> Path:
@@ -41,11 +40,7 @@ def check(out, inputs=()) -> Path:
     text = str(out)
     if not text.strip() or "\0" in text:
         raise InputError("out", text, "must name a folder")
-    folder = Path(text).expanduser().absolute()
-    if len(os.fsencode(str(folder))) > 3000 or any(
-            len(os.fsencode(part)) > _NAME_MAX for part in folder.parts):
-        raise InputError("out", text[:80] + ("..." if len(text) > 80 else ""),
-                         f"path too long (each name at most {_NAME_MAX} bytes)")
+    folder = files.check_path_text(str(Path(text).expanduser().absolute()), "out")
     if folder.exists() and not folder.is_dir():
         raise InputError("out", text, "is a file, not a folder; give a folder")
     existing = next(p for p in (folder, *folder.parents) if p.exists())

@@ -67,3 +67,12 @@ def test_bad_values_are_one_line_and_write_nothing(exhibit, argv, key, rule, cap
     assert len(lines) == 1 and lines[0].startswith("cloakview: error: "), err
     assert key in lines[0] and (rule is None or rule in lines[0]), lines[0]
     assert sorted(p.name for p in folder.rglob("*")) == before
+
+
+def test_a_picture_name_too_long_for_any_file_system_is_one_line(exhibit, capsys):
+    folder, scene = exhibit
+    scene.write_text(scene.read_text().replace('image = "art/poster.png"',
+                                               f'image = "{"y" * 300}"'))
+    assert main(["render", str(scene), "--out", str(folder / "out")]) == 2
+    err = capsys.readouterr().err
+    assert "layer[0].image" in err and "path too long" in err and len(err) < 400

@@ -25,7 +25,7 @@ from cloakview.optics.materials import C_LINE_NM, D_LINE_NM, F_LINE_NM, material
 from cloakview.optics.surfaces import Housing
 from cloakview.optics.system import LensSystem, PlacedLens
 from cloakview.render.color import hex_color_linear
-from cloakview.render.files import read_text
+from cloakview.render.files import check_path_text, read_text
 from cloakview.render.scene.keys import KeyReader
 from cloakview.render.scene.model import (
     ROLES,
@@ -161,7 +161,7 @@ def _housing(t: KeyReader, system: LensSystem) -> tuple[Housing, np.ndarray, np.
 
 
 def _resolve_image(text: str, key: str, folder: Path, source: str, allow_outside: bool) -> Path:
-    path = Path(text)
+    path = check_path_text(text, key, source)
     candidate = (path if path.is_absolute() else folder / path).resolve()
     if not allow_outside:
         if path.is_absolute():

@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 from cloakview.optics.errors import InputError
 from cloakview.render.color import srgb_to_linear
+from cloakview.render.files import require_file
 from PIL import Image, UnidentifiedImageError
 
 #: Largest texture side [pixels].
@@ -57,8 +58,7 @@ def read_texture(path: Path, key: str, source: str) -> np.ndarray:
     InputError
         If the file is missing, unreadable, animated, or over the pixel budget.
     """
-    if not path.is_file():
-        raise InputError(key, str(path), "image file not found", source)
+    require_file(path, key, "image file", source)
     budget = (f"each side at most {MAX_TEXTURE_SIDE} pixels and at most "
               f"{MAX_TEXTURE_PIXELS / 1e6:g} million pixels in all; scale the picture down")
     try:
