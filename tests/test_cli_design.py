@@ -14,7 +14,8 @@ def _json(capsys, *args):
 
 
 def test_ideal_reference_design(capsys):
-    # Choi and Howell (2014) rule, references.md: 200/75 gives 275, 330 and 880 mm.
+    # J. S. Choi and J. C. Howell, Optics Express 22(24), 29465 (2014): t1 = f1 + f2 and
+    # t2 = 2 f2 (f1 + f2) / (f1 - f2); computed for 200/75: 275, 330 and 880 mm.
     out = _json(capsys, "--f-outer", "200", "--f-inner", "75", "--ideal")
     assert out["outer_spacing_mm"] == pytest.approx(275)
     assert out["inner_spacing_mm"] == pytest.approx(330)

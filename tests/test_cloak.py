@@ -40,7 +40,8 @@ def test_ideal_cloak_matrix_matches_sympy(f1, f2):
 @pytest.mark.parametrize("f1, f2, t1, t2, length", [(200, 75, 275, 330, 880),
                                                     (150, 50, 200, 200, 600)])
 def test_reference_spacings(f1, f2, t1, t2, length):
-    # references.md, computed from the Choi and Howell (2014) rule.
+    # Computed from J. S. Choi and J. C. Howell, Optics Express 22(24), 29465 (2014):
+    # t1 = f1 + f2, t2 = 2 f2 (f1 + f2) / (f1 - f2), L = 2 t1 + t2.
     design = _ideal(f1, f2)
     assert design.outer_spacing_mm == pytest.approx(t1)
     assert design.inner_spacing_mm == pytest.approx(t2)
@@ -49,8 +50,8 @@ def test_reference_spacings(f1, f2, t1, t2, length):
 
 
 def test_dropping_the_factor_two_does_not_cloak():
-    # references.md (computed): t2 = 165 mm for 200/75 gives a 715 mm device whose B is
-    # about -293 mm. Checked with sympy and with our own matrices.
+    # Computed with Kogelnik and Li's matrices (Applied Optics 5, 1550, 1966): t2 = 165 mm for
+    # 200/75 gives a 715 mm device whose B is about -293 mm. Checked with sympy.
     reference = _sympy_cloak(200, 75, 275, 165)
     assert reference[0, 1] == pytest.approx(-293.3, abs=0.1)
     elements = [thin_lens(200), free_space(275), thin_lens(75), free_space(165), thin_lens(75),
