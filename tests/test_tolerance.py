@@ -3,6 +3,7 @@
 import dataclasses
 
 import numpy as np
+import pytest
 from cloakview.render.frame.views import render_viewer
 from cloakview.render.planning import tolerance as tl
 from cloakview.render.scene.loader import load_scene
@@ -70,3 +71,36 @@ def test_sensitivity_ranks_the_tolerance_that_matters(tmp_path):
     assert set(summary["for_95_yield"]) == {"axial_mm", "decenter_mm"}
     assert set(summary["for_95_yield"]["decenter_mm"]["scan"]) == {"1.25", "2.5", "5", "10",
                                                                    "20"}
+
+
+@pytest.mark.parametrize(("passes", "builds", "low", "high"), [
+    # R. G. Newcombe, "Two-sided confidence intervals for the single proportion: comparison
+    # of seven methods", Statistics in Medicine 17, 857-872 (1998), Table II, method 3
+    # (Wilson score, no continuity correction); values from memory of that table.
+    (81, 263, 0.2553, 0.3662),
+    (15, 148, 0.0624, 0.1605),
+    (0, 20, 0.0, 0.1611),
+    (1, 29, 0.0061, 0.1718),
+])
+def test_yield_interval_is_the_wilson_score_interval(passes, builds, low, high):
+    assert tl.wilson_interval(passes, builds) == pytest.approx((low, high), abs=5e-5)
+
+
+def test_builds_record_each_lens_sampled_errors_within_the_limits(tmp_path):
+    path = write_scene(tmp_path / "s", layers=RING, render_extra=IDEAL)
+    tol = tl.Tolerances(axial_mm=1.0, decenter_mm=0.5, tilt_deg=0.3, focal_pct=2.0)
+    _, builds = tolerance_analysis(path, tol, 3, 4, (32, 24))
+    for build in builds:
+        for lens in range(1, 5):
+            assert abs(build[f"L{lens}_axial_mm"]) <= 1.0
+            assert (build[f"L{lens}_decenter_x_mm"] ** 2
+                    + build[f"L{lens}_decenter_y_mm"] ** 2) <= 0.5 ** 2 + 1e-12
+            assert max(abs(build[f"L{lens}_tilt_x_deg"]),
+                       abs(build[f"L{lens}_tilt_y_deg"])) <= 0.3
+            assert abs(build[f"L{lens}_focal_pct"]) <= 2.0
+    # The same seed draws the same errors as the perturbed system actually has.
+    scene = load_scene(path)
+    system, errors = tl.perturbation(scene.system, tol, np.random.default_rng(builds[0]["seed"]))
+    assert errors == {k: v for k, v in builds[0].items() if k.startswith("L")}
+    assert system.lenses[1].z_mm - scene.system.lenses[1].z_mm == pytest.approx(
+        errors["L2_axial_mm"])

@@ -61,8 +61,10 @@ def _tolerance(args) -> int:
     if args.json:
         print(json.dumps(summary, indent=2))
         return 0
+    low, high = summary["yield_interval_95"]
     print(f"Yield: {summary['yield']:.0%} of {args.builds} builds work from the design viewer "
-          f"({summary['definition']}).")
+          f"(95 % interval {low:.0%} to {high:.0%}, Wilson score; "
+          f"{summary['definition']}).")
     print("Which tolerance costs most (yield with that tolerance alone):")
     for s in summary["sensitivity"]:
         scan = summary["for_95_yield"][s["tolerance"]]
@@ -111,8 +113,9 @@ def add_commands(commands) -> None:
                             "tolerance matters most, and the tolerances for 95 %% yield")
     opt.add_scene(t, viewer=False)
     opt.add_tolerances(t)
-    t.add_argument("--builds", type=int, default=40, metavar="N",
-                   help="builds per setting, 1-10000")
+    t.add_argument("--builds", type=int, default=api.DEFAULT_BUILDS, metavar="N",
+                   help="builds per setting, 1-10000; the default keeps the yield's 95 %% "
+                   "interval within +-10 %%")
     t.add_argument("--seed", type=int, default=1, help="random seed, 0 or more")
     t.add_argument("--size", default="{}x{}".format(*api.BUILD_SIZE_PX), metavar="WxH",
                    help="render size of each build in pixels")

@@ -50,21 +50,52 @@ def _scaled(lens, factor: float):
     return dataclasses.replace(lens, r1_mm=lens.r1_mm * factor, r2_mm=lens.r2_mm * factor)
 
 
-def perturbed(system: LensSystem, tol: Tolerances, rng: np.random.Generator) -> LensSystem:
-    """The system as one build might come out."""
-    lenses = []
-    for placed in system.lenses:
+def perturbation(system: LensSystem, tol: Tolerances,
+                 rng: np.random.Generator) -> tuple[LensSystem, dict]:
+    """The system as one build might come out, and each lens's sampled errors.
+
+    The errors are keyed ``L<n>_axial_mm``, ``L<n>_decenter_x_mm``, ``L<n>_decenter_y_mm``,
+    ``L<n>_tilt_x_deg``, ``L<n>_tilt_y_deg`` and ``L<n>_focal_pct``.
+    """
+    lenses, errors = [], {}
+    for number, placed in enumerate(system.lenses, start=1):
         u = rng.uniform(-1.0, 1.0, 6)
         angle = np.pi * u[1]
         radius = tol.decenter_mm * abs(u[2])
-        lens = _scaled(placed.lens, 1.0 + tol.focal_pct / 100.0 * u[5])
+        focal_pct = tol.focal_pct * float(u[5])
+        decenter = ((float(radius * np.cos(angle)), float(radius * np.sin(angle)))
+                    if radius else (0.0, 0.0))
+        tilt = ((float(tol.tilt_deg * u[3]), float(tol.tilt_deg * u[4]))
+                if tol.tilt_deg else (0.0, 0.0))
+        axial = tol.axial_mm * float(u[0])
+        errors.update({f"L{number}_axial_mm": axial, f"L{number}_decenter_x_mm": decenter[0],
+                       f"L{number}_decenter_y_mm": decenter[1],
+                       f"L{number}_tilt_x_deg": tilt[0], f"L{number}_tilt_y_deg": tilt[1],
+                       f"L{number}_focal_pct": focal_pct})
         lenses.append(dataclasses.replace(
-            placed, lens=lens, z_mm=placed.z_mm + tol.axial_mm * u[0],
-            decenter_mm=(float(radius * np.cos(angle)), float(radius * np.sin(angle)))
-            if radius else (0.0, 0.0),
-            tilt_deg=(float(tol.tilt_deg * u[3]), float(tol.tilt_deg * u[4]))
-            if tol.tilt_deg else (0.0, 0.0)))
-    return dataclasses.replace(system, lenses=tuple(lenses))
+            placed, lens=_scaled(placed.lens, 1.0 + focal_pct / 100.0),
+            z_mm=placed.z_mm + axial, decenter_mm=decenter, tilt_deg=tilt))
+    return dataclasses.replace(system, lenses=tuple(lenses)), errors
+
+
+def perturbed(system: LensSystem, tol: Tolerances, rng: np.random.Generator) -> LensSystem:
+    """The system as one build might come out (see :func:`perturbation`)."""
+    return perturbation(system, tol, rng)[0]
+
+
+def wilson_interval(passes: int, builds: int, z: float = 1.959964) -> tuple[float, float]:
+    """95 % score interval of a yield of ``passes`` out of ``builds`` (Wilson [1]).
+
+    References
+    ----------
+    .. [1] E. B. Wilson, "Probable inference, the law of succession, and statistical
+       inference", J. Am. Stat. Assoc. 22(158), 209-212 (1927).
+    """
+    p = passes / builds
+    scale = 1.0 + z * z / builds
+    centre = (p + z * z / (2 * builds)) / scale
+    half = z / scale * np.sqrt(p * (1 - p) / builds + z * z / (4 * builds * builds))
+    return max(0.0, float(centre - half)), min(1.0, float(centre + half))
 
 
 def build_job(state, job: dict) -> dict:
@@ -73,7 +104,7 @@ def build_job(state, job: dict) -> dict:
     tol = Tolerances(**job["tol"])
     rng = np.random.default_rng(job["seed"])
     try:
-        system = perturbed(scene.system, tol, rng)
+        system, errors = perturbation(scene.system, tol, rng)
     except InputError as error:  # e.g. a focal-length error no lens of that thickness has
         return {"seed": job["seed"], **job["tol"], "hidden_fraction": None,
                 "shift_median_arcmin": None, "verdict": f"no such lens: {error.rule}",
@@ -85,7 +116,7 @@ def build_job(state, job: dict) -> dict:
     shift = m["background_shift_arcmin"]
     return {"seed": job["seed"], **job["tol"], "hidden_fraction": m["hidden_fraction"],
             "shift_median_arcmin": shift and shift["median"], "verdict": m["verdict"],
-            "passes": classify(m) == "works"}
+            "passes": classify(m) == "works", **errors}
 
 
 def jobs_for(tol: Tolerances, builds: int, seed: int, size) -> list[dict]:
@@ -128,8 +159,11 @@ def summarise(tol: Tolerances, groups: dict[str, list[dict]]) -> dict:
                      "smallest_tested": value * SCAN[0], "scan": {
                          f"{value * f:g}": share(groups[f"{key}x{f:g}"]) for f in SCAN}}
     sensitivity.sort(key=lambda s: s["yield_alone"])
-    return {"tolerances": dataclasses.asdict(tol), "builds": len(groups["all"]),
-            "yield": share(groups["all"]), "sensitivity": sensitivity, "for_95_yield": keep}
+    builds = groups["all"]
+    return {"tolerances": dataclasses.asdict(tol), "builds": len(builds),
+            "yield": share(builds),
+            "yield_interval_95": wilson_interval(sum(r["passes"] for r in builds), len(builds)),
+            "sensitivity": sensitivity, "for_95_yield": keep}
 
 
 def analyse(tol: Tolerances, builds: int, seed: int, size, setup, setup_args=(), *,

@@ -8,12 +8,14 @@ and the program version. A sweep run again skips what is done; after an edit to 
 a picture, an inventory or an option the keys differ and the work is done afresh. A job
 that fails is reported with its inputs; the others' results are kept.
 
-The cache lives outside the deliverable folders: ``$CLOAKVIEW_CACHE``, else
+The key also covers a digest of the program's own code, so a changed program never
+reuses an old result. The cache lives outside the deliverable folders: ``$CLOAKVIEW_CACHE``, else
 ``$XDG_CACHE_HOME/cloakview``, else ``~/.cache/cloakview``.
 """
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import json
 import multiprocessing
@@ -64,10 +66,26 @@ def fingerprint(files=(), **options) -> str:
     return digest.hexdigest()
 
 
+@functools.lru_cache(maxsize=1)
+def code_digest() -> str:
+    """A digest of cloakview's own optics and render code.
+
+    A changed program, even one that keeps its version number (as between two commits),
+    never reuses an old result.
+    """
+    root = Path(__file__).resolve().parents[2]
+    digest = hashlib.sha256()
+    for path in sorted([*root.joinpath("optics").rglob("*.py"),
+                        *root.joinpath("render").rglob("*.py")]):
+        digest.update(path.relative_to(root).as_posix().encode() + path.read_bytes())
+    return digest.hexdigest()
+
+
 def job_key(fn, job: dict, context: str) -> str:
-    """A stable name for one job's result: job, function, context and program version."""
+    """A stable name for one job's result: job, function, context and program (version, code)."""
     text = json.dumps({"job": job, "fn": f"{fn.__module__}.{fn.__qualname__}",
-                       "context": context, "version": program_version()}, sort_keys=True)
+                       "context": context, "version": program_version(),
+                       "code": code_digest()}, sort_keys=True)
     return hashlib.sha256(text.encode()).hexdigest()[:32]
 
 
