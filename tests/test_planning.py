@@ -116,3 +116,23 @@ def test_a_zero_radius_names_its_column_once(tmp_path):
     with pytest.raises(ValueError) as error:
         load_inventory(path)
     assert str(error.value).count("column r1_mm") == 1
+
+
+def test_choose_table_is_aligned_counts_and_flags_long_designs(tmp_path, capsys):
+    import cloakview
+
+    inventory = cloakview.sample_scenes.path("inventory.csv")
+    assert main(["choose", str(inventory), "--workers", "1", "--top", "12", "--currency",
+                 "EUR", "--out", str(tmp_path / "o")]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    header, rows = lines[0], lines[1:13]
+    assert "cost EUR" in header
+    start = header.index("length mm")  # every row's numbers end under their heading
+    end = start + len("length mm")
+    assert all(row[end - 1].isdigit() and row[end] == " " for row in rows)
+    data = json.loads((tmp_path / "o" / "designs.json").read_text())
+    feasible = [r for r in data["designs"] if r["reason"] is None]
+    assert lines[13].startswith(f"Top 12 of {len(feasible)} feasible designs")
+    long = [r for r in feasible if r["length_mm"] > 3000]
+    assert long and all(r["flag"] == "longer than 3 m" for r in long)
+    assert all(r["flag"] is None for r in feasible if r["length_mm"] <= 3000)

@@ -27,7 +27,10 @@ from cloakview.render.sweeps.jobs import fingerprint
 DESIGN_COLUMNS = ("rank", "pareto", "outer", "inner", "f_outer_mm", "f_inner_mm", "length_mm",
                   "acuity_field_deg", "through_window_deg", "object_height_mm",
                   "object_length_mm", "object_gap", "color_fringe_arcmin", "transmittance",
-                  "mass_g", "cost", "reason")
+                  "mass_g", "cost", "flag", "reason")
+#: A device longer than this is flagged even without a length limit [mm]: longer than most
+#: gallery rooms allow for one exhibit plus its viewing distance (our own choice).
+PRACTICAL_LENGTH_MM = 3000.0
 #: Default render size of one tolerance build [pixels].
 BUILD_SIZE_PX = (128, 72)
 #: Default builds per tolerance setting: the fewest for which the 95 % interval of a yield
@@ -110,6 +113,9 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
     rows, reused = search.search(inventory, items, constraints, workers, bar, fresh,
                                  scheduler_from(scheduler))
     feasible = [r for r in rows if r["reason"] is None]
+    for r in rows:
+        r["flag"] = (f"longer than {PRACTICAL_LENGTH_MM / 1000:g} m" if max_length_mm is None
+                     and r.get("length_mm", 0) > PRACTICAL_LENGTH_MM else None)
     if not feasible:
         raise InputError("constraints", str(inventory), search.relax_hint(rows, constraints))
     summary = {"constraints": {"max_length_mm": max_length_mm, "budget": budget,

@@ -29,23 +29,32 @@ def _choose(args) -> int:
         distance_mm=args.distance,
         viewing_box_mm=opt.box(args.viewing_box, "--viewing-box"),
         min_object_mm=_min_object(args.min_object), render_in=args.render_in,
-        workers=args.workers, fresh=args.fresh, scheduler=args.scheduler, progress=not args.json)
+        workers=args.workers, fresh=args.fresh, scheduler=args.scheduler,
+        progress=not args.json)
     feasible = [r for r in result["designs"] if r["reason"] is None]
+    shown = feasible[:args.top]
     if args.json:
-        print(json.dumps(feasible[:args.top], indent=2))
+        print(json.dumps(shown, indent=2))
         return 0
-    print(f"{'rank':>4} {'outer':<12}{'inner':<12}{'length':>8}{'field':>7}{'object':>11}"
-          f"{'fringe':>8}{'trans':>7}{'kg':>6}{'cost':>7}  Pareto")
-    for r in feasible[:args.top]:
-        print(f"{r['rank']:>4} {r['outer']:<12}{r['inner']:<12}{r['length_mm']:>8.0f}"
-              f"{r['acuity_field_deg']:>7.2f}"
-              f"{r['object_height_mm']:>5.0f}x{r['object_length_mm']:<5.0f}"
-              f"{r['color_fringe_arcmin'] or 0:>8.2f}{r['transmittance']:>7.3f}"
-              f"{r['mass_g'] / 1000:>6.2f}{r['cost']:>7.0f}  {'yes' if r['pareto'] else ''}")
+    cost = f"cost {args.currency}" if args.currency else "cost"
+    rows = [[str(r["rank"]), r["outer"], r["inner"], f"{r['length_mm']:.0f}",
+             f"{r['acuity_field_deg']:.2f}",
+             f"{r['object_height_mm']:.0f} x {r['object_length_mm']:.0f}",
+             f"{r['color_fringe_arcmin'] or 0:.2f}", f"{r['transmittance']:.3f}",
+             f"{r['mass_g'] / 1000:.2f}", f"{r['cost']:.2f}", "yes" if r["pareto"] else "",
+             r["flag"] or ""] for r in shown]
+    header = ["rank", "outer", "inner", "length mm", "field deg", "object mm", "fringe '",
+              "trans", "kg", cost, "Pareto", "note"]
+    widths = [max(len(row[i]) for row in [header, *rows]) for i in range(len(header))]
+    left = {1, 2, 10, 11}
+    for row in [header, *rows]:
+        print("  ".join(cell.ljust(w) if i in left else cell.rjust(w)
+                        for i, (cell, w) in enumerate(zip(row, widths, strict=True))).rstrip())
     rejected = len(result["designs"]) - len(feasible)
-    print(f"field: degrees off the axis with the background within 1 arcmin; object: largest "
-          f"hidden ring, height x length [mm]; {rejected} pairs rejected (reasons in "
-          "designs.csv).")
+    print(f"Top {len(shown)} of {len(feasible)} feasible designs ({rejected} pairs rejected; "
+          "reasons in designs.csv). field: degrees off the axis with the background within "
+          "1 arcmin; object: largest hidden ring, height x length; fringe in arcmin; "
+          f"cost of the four lenses{' in ' + args.currency if args.currency else ''}.")
     print(f"Wrote {Path(args.out) / 'designs.csv'}, pareto.csv, pareto.png and designs.json "
           f"in {result['seconds']:.1f} s." + opt.reuse_note(result, len(result["designs"])))
     return 0
@@ -100,6 +109,8 @@ def add_commands(commands) -> None:
     c.add_argument("--min-object", default="0,0", metavar="H,L",
                    help="smallest object to hide, height and length [mm]")
     c.add_argument("--top", type=int, default=10, metavar="N", help="designs to list")
+    c.add_argument("--currency", metavar="CODE", help="currency of the inventory's prices, "
+                   "printed with the costs, e.g. EUR (default: none printed)")
     c.add_argument("--render-in", metavar="SCENE", help="render the best design in this "
                    "scene (its layers and first viewer) as top_design.png")
     c.add_argument("--render-top", dest="render_in", action=opt.RenamedOption,
