@@ -1,4 +1,4 @@
-"""Fresnel reflection against Hecht, Optics, 5th ed., sec. 4.6 (and references.md)."""
+"""Fresnel reflection against E. Hecht, Optics, 5th ed., sec. 4.6."""
 
 import numpy as np
 import pytest
