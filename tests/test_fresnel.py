@@ -18,14 +18,16 @@ def test_normal_incidence_four_percent():
 
 @pytest.mark.parametrize("n, expected", [(1.4585, 0.0348), (1.4914, 0.0389), (1.585, 0.0512)])
 def test_normal_incidence_other_indices(n, expected):
-    # references.md (computed from Hecht's normal-incidence formula), four decimals.
+    # Computed from R = ((n - 1)/(n + 1))^2 (E. Hecht, Optics, 5th ed., sec. 4.6), four
+    # decimals.
     cos_i, cos_t = _cosines(1.0, n, 0.0)
     assert 1 - unpolarised_transmittance(1.0, n, cos_i, cos_t) == pytest.approx(expected,
                                                                               abs=5e-5)
 
 
 def test_45_degrees_s_and_p():
-    # references.md (Hecht sec. 4.6): at 45 deg and n = 1.5, Rs = 0.0920, Rp = 0.00847.
+    # E. Hecht, Optics, 5th ed., sec. 4.6 (Fresnel equations): at 45 deg and n = 1.5,
+    # Rs = 0.0920, Rp = 0.00847.
     cos_i, cos_t = _cosines(1.0, 1.5, 45.0)
     rs, rp = reflectance_sp(1.0, 1.5, cos_i, cos_t)
     assert rs == pytest.approx(0.0920, abs=5e-5)

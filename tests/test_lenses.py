@@ -20,7 +20,8 @@ def _hecht_focal_length(n, r1, r2, d):
 
 
 def test_worked_biconvex_example(glass_n15):
-    # references.md (computed from Hecht ch. 6): R1 = 50, R2 = -50, d = 10, n = 1.5:
+    # Computed from the thick-lens equation (E. Hecht, Optics, 5th ed., ch. 6): R1 = 50,
+    # R2 = -50, d = 10, n = 1.5:
     # f = 51.724 mm, principal planes 3.448 mm inside each vertex, BFL 48.276 mm.
     placed = PlacedLens(ThickLens(50.0, -50.0, 10.0, 40.0, glass_n15), 0.0)
     cp = placed.cardinal_points()

@@ -13,7 +13,7 @@ from cloakview.optics.materials import (
 
 
 # Malitson, J. Opt. Soc. Am. 55, 1205 (1965): Sellmeier formula, values evaluated at the
-# F, d, C lines as listed in shared/references.md (computed from the published formula).
+# F, d, C lines (computed from the published formula).
 @pytest.mark.parametrize("wavelength, expected", [
     (F_LINE_NM, 1.463126), (D_LINE_NM, 1.458464), (C_LINE_NM, 1.456367)])
 def test_fused_silica_malitson(wavelength, expected):
@@ -21,7 +21,7 @@ def test_fused_silica_malitson(wavelength, expected):
 
 
 def test_fused_silica_abbe_number_malitson():
-    # Malitson (1965) formula gives V_d = 67.8 (references.md, computed).
+    # Malitson (1965) formula gives V_d = 67.8 (computed from the published formula).
     assert MATERIALS["fused-silica"].abbe_number() == pytest.approx(67.8, abs=0.05)
 
 
@@ -34,7 +34,7 @@ def test_acrylic_kasarova_formula_matches_sultanova_measurements(wavelength, exp
 
 def test_acrylic_kasarova_d_line_and_abbe():
     # Kasarova et al., Optical Materials 29, 1481 (2007): n_d about 1.4914, V_d about 52.6
-    # (references.md, computed from the published formula).
+    # (computed from the published formula).
     acrylic = MATERIALS["acrylic"]
     assert float(acrylic.index(D_LINE_NM)) == pytest.approx(1.4914, abs=1e-4)
     assert acrylic.abbe_number() == pytest.approx(52.6, abs=0.1)
@@ -55,7 +55,7 @@ def test_polycarbonate_is_a_high_dispersion_plastic():
 
 def test_soda_lime_rubin():
     # Rubin, Solar Energy Materials 12, 275 (1985): n = 1.5130 - 0.003169 L^2 + 0.003962 / L^2;
-    # references.md (computed): n_d about 1.5234, V_d about 64.
+    # computed from that formula: n_d about 1.5234, V_d about 64.
     glass = MATERIALS["soda-lime"]
     assert float(glass.index(D_LINE_NM)) == pytest.approx(1.5234, abs=1e-4)
     assert glass.abbe_number() == pytest.approx(64, abs=0.5)

@@ -25,7 +25,8 @@ def _axis_crossing(result):
 
 
 def test_single_surface_spherical_aberration(glass_n15):
-    # references.md section 5 (exact trace, n = 1.5, R = 50 mm, object at infinity):
+    # Exact ray-sphere trace (W. T. Welford, Aberrations of Optical Systems, sec. 4.3),
+    # n = 1.5, R = 50 mm, object at infinity:
     # longitudinal aberration 0.01333 / 0.3340 / 1.3439 / 5.5121 mm at 1 / 5 / 10 / 20 mm;
     # third-order theory (Jenkins and White) h^2 / (2 n (n - 1) R) agrees at small h.
     surface = Refracting(0.0, 1 / 50.0, 30.0, AIR, glass_n15)
@@ -42,7 +43,7 @@ def test_single_surface_spherical_aberration(glass_n15):
 
 @pytest.mark.parametrize("curved_first, expected", [(True, 1.171), (False, 4.58)])
 def test_plano_convex_orientation(glass_n15, curved_first, expected):
-    # references.md section 5: plano-convex R = 50, centre 5 mm, n = 1.5 (f = 100 mm),
+    # Exact trace (Welford, sec. 4.3): plano-convex R = 50, centre 5 mm, n = 1.5 (f = 100 mm),
     # h = 10 mm from infinity: 1.171 mm curved side first, 4.58 mm flat side first
     # (Jenkins and White third-order: about 1.17 h^2/f and 4.5 h^2/f).
     lens = ThickLens(50.0, math.inf, 5.0, 40.0, glass_n15)
