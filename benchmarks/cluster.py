@@ -18,7 +18,7 @@ import tempfile
 import time
 
 import cloakview
-from cloakview.render.api.motion import DISTANCE_RANGE_MM, LATERAL_RANGE_MM
+from cloakview.render.sweeps.sightlines import DISTANCE_RANGE_MM, LATERAL_RANGE_MM
 
 
 def _sweep(lateral_step: float, scheduler: str | None, out: str) -> tuple[float, int]:

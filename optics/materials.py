@@ -17,6 +17,15 @@ References
    Energy Materials 12, 275-288 (1985).
 .. [5] W. J. Smith, Modern Optical Engineering, 4th ed. (2008), ch. 7
    (Abbe number V_d = (n_d - 1) / (n_F - n_C), Fraunhofer lines).
+.. [6] M. J. Weber, Handbook of Optical Materials (CRC Press, 2003), sec. 2.4
+   (fused silica, density 2.20 g/cm^3) and sec. 2.2 (commercial crown glasses of the
+   soda-lime type, about 2.5 g/cm^3); values as recalled from the handbook, not re-read.
+.. [7] J. D. Lytle, "Polymeric optics", in Handbook of Optics, 2nd ed., vol. II
+   (McGraw-Hill, 1995), ch. 34, table of physical properties: PMMA 1.19 g/cm^3,
+   polycarbonate 1.20 g/cm^3; values as recalled from the handbook, not re-read.
+.. [8] J. H. Gladstone and T. P. Dale, "Researches on the refraction, dispersion, and
+   sensitiveness of liquids", Phil. Trans. R. Soc. London 153, 317-343 (1863):
+   (n - 1) / density is nearly constant for a family of materials.
 """
 
 from __future__ import annotations
@@ -130,11 +139,17 @@ class Cauchy:
         return self.a + self.b * inv2 + self.c * inv2 * inv2
 
     @classmethod
-    def through_points(cls, wavelengths_nm, indices) -> Cauchy:
-        """Return the Cauchy model through two or three measured (wavelength, index) points."""
-        inv2 = 1.0 / _micrometres(wavelengths_nm) ** 2
-        columns = [np.ones_like(inv2), inv2, inv2 * inv2][: len(inv2)]
-        coeffs = np.linalg.solve(np.stack(columns, axis=1), np.asarray(indices, float))
+    def fit(cls, wavelengths_nm, indices, terms: int = 3) -> Cauchy:
+        """Least-squares Cauchy model (``terms`` = 2 or 3) to measured (wavelength, index) points.
+
+        With as many points as terms the model passes through them exactly.
+        """
+        inv2 = 1.0 / _micrometres(np.asarray(wavelengths_nm, float)) ** 2
+        if not 2 <= terms <= 3 or len(inv2) < terms:
+            raise ValueError(f"a {terms}-term Cauchy fit needs at least {terms} points")
+        columns = [np.ones_like(inv2), inv2, inv2 * inv2][:terms]
+        coeffs = np.linalg.lstsq(np.stack(columns, axis=1), np.asarray(indices, float),
+                                 rcond=None)[0]
         return cls(*map(float, coeffs))
 
     @classmethod
@@ -193,7 +208,14 @@ class Material:
 
 AIR = Material("air", ConstantIndex(1.0), 0.0012, "taken as 1.0 (common practice)")
 
-#: Named materials. Densities are handbook values quoted from memory.
+#: Polycarbonate, all eight measured indices of Sultanova et al. 2009 [3], table of
+#: optical polymers (the first wavelength printed there as 436.8 nm, read here as the
+#: mercury g line, 435.8 nm). The paper gives V_d 29.1; a three-term Cauchy fit to these
+#: points gives 27.7, within what indices printed to three decimals allow (about +-1.4).
+SULTANOVA_PC_NM = (435.8, 486.1, 587.6, 632.8, 703.0, 833.0, 879.0, 1052.0)
+SULTANOVA_PC_N = (1.612, 1.599, 1.585, 1.580, 1.575, 1.569, 1.568, 1.565)
+
+#: Named materials; densities from the handbooks [6], [7].
 MATERIALS: dict[str, Material] = {
     m.name: m
     for m in (
@@ -201,27 +223,27 @@ MATERIALS: dict[str, Material] = {
             "fused-silica",
             Sellmeier((0.6961663, 0.4079426, 0.8974794), (0.0684043, 0.1162414, 9.896161)),
             2.20,
-            "Malitson 1965 Sellmeier, 20 C",
+            "Malitson 1965 Sellmeier, 20 C; density Weber 2003",
         ),
         Material(
             "soda-lime",
             QuadraticInverseQuadratic(1.5130, -0.003169, 0.003962),
             2.5,
-            "Rubin 1985",
+            "Rubin 1985; density Weber 2003",
         ),
         Material(
             "acrylic",
             IndexSquaredSeries(
                 (2.399964, -8.308636e-2, -1.919569e-1, 8.720608e-2, -1.666411e-2, 1.169519e-3)
             ),
-            1.18,
-            "Kasarova et al. 2007 (PMMA)",
+            1.19,
+            "Kasarova et al. 2007 (PMMA); density Lytle 1995",
         ),
         Material(
             "polycarbonate",
-            Cauchy.through_points((486.1, 587.6, 632.8), (1.599, 1.585, 1.580)),
+            Cauchy.fit(SULTANOVA_PC_NM, SULTANOVA_PC_N),
             1.20,
-            "Cauchy fit through Sultanova et al. 2009 measured indices",
+            "Cauchy fit to the 8 indices of Sultanova et al. 2009; density Lytle 1995",
         ),
     )
 }
@@ -234,32 +256,60 @@ ND_RANGE = (1.3, 2.1)
 VD_RANGE = (15.0, 100.0)
 
 
-def material_by_name(name: str, key: str = "material") -> Material:
-    """Return a named material, or one built from ``"ND/VD"`` (e.g. ``"1.52/60"``).
+#: Specific refractivity (n_d - 1) / density of silicate glasses [cm^3/g], Gladstone and
+#: Dale [8], computed here from the two glasses above: fused silica 0.4585 / 2.20 = 0.208,
+#: soda-lime 0.5234 / 2.5 = 0.209. Lead-rich flints fall lower (about 0.18), plastics far
+#: higher (PMMA 0.41), so the estimate suits crown-type glasses only.
+GLADSTONE_DALE_CM3_G = 0.2085
+DENSITY_RANGE = (0.8, 7.0)
 
-    A material given as ``ND/VD`` uses :meth:`Cauchy.from_abbe` and a density of
-    2.5 g/cm^3 (crown-glass class, common practice).
+
+def gladstone_dale_density(nd: float) -> float:
+    """Estimated density [g/cm^3] of a silicate glass of d-line index ``nd`` ([8])."""
+    return (nd - 1.0) / GLADSTONE_DALE_CM3_G
+
+
+def material_by_name(name: str, key: str = "material") -> Material:
+    """Return a named material, or one built from ``"ND/VD"`` or ``"ND/VD/DENSITY"``.
+
+    ``ND/VD`` (e.g. ``"1.52/60"``) uses :meth:`Cauchy.from_abbe`; its density [g/cm^3] is
+    the third value when given (``"1.52/60/2.5"``), else estimated from n_d by
+    :func:`gladstone_dale_density` (for crown-type glasses), and the material's
+    ``source`` says which.
 
     Raises
     ------
     InputError
-        If the name is unknown and is not an ``ND/VD`` pair.
+        If the name is unknown and is not such a triple.
     """
     if isinstance(name, Material):
         return name
     text = str(name).strip().lower()
     if text in MATERIALS:
         return MATERIALS[text]
-    if text.count("/") == 1:
+    if text.count("/") in (1, 2):
         try:
-            nd, vd = (float(part) for part in text.split("/"))
+            values = [float(part) for part in text.split("/")]
         except ValueError:
-            nd = vd = None
-        if nd is not None:
+            values = None
+        if values is not None:
+            nd, vd = values[:2]
             if not (ND_RANGE[0] <= nd <= ND_RANGE[1] and VD_RANGE[0] <= vd <= VD_RANGE[1]):
                 raise InputError(key, name, f"n_d must lie in {ND_RANGE[0]:g}-{ND_RANGE[1]:g} "
                                  f"and V_d in {VD_RANGE[0]:g}-{VD_RANGE[1]:g}, the span of "
                                  "real optical glasses and plastics")
-            return Material(text, Cauchy.from_abbe(nd, vd), 2.5, "user n_d and V_d")
+            if len(values) == 3:
+                density = values[2]
+                if not DENSITY_RANGE[0] <= density <= DENSITY_RANGE[1]:
+                    raise InputError(key, name, f"density must lie in {DENSITY_RANGE[0]:g}-"
+                                     f"{DENSITY_RANGE[1]:g} g/cm3")
+                source = f"n_d and V_d given; density {density:g} g/cm3 given"
+            else:
+                density = gladstone_dale_density(nd)
+                source = (f"n_d and V_d given; density {density:.2f} g/cm3 estimated from "
+                          "n_d (Gladstone-Dale, crown-type glass): give ND/VD/DENSITY for "
+                          "the supplier's value")
+            return Material(text, Cauchy.from_abbe(nd, vd), density, source)
     known = ", ".join(sorted(MATERIALS))
-    raise InputError(key, name, f"unknown material; use one of {known}, or ND/VD like 1.52/60")
+    raise InputError(key, name, f"unknown material; use one of {known}, ND/VD like 1.52/60, "
+                     "or ND/VD/DENSITY like 1.52/60/2.5")

@@ -225,7 +225,11 @@ def _refract(bundle: _Bundle, surface: Refracting, wavelengths, out: _Output) ->
         bundle.z += t * bundle.dz
     x, y = bundle.x, bundle.y
     r2 = x * x + y * y
-    bundle = out.retire(bundle, r2 > surface.semi_aperture_mm**2, MOUNT)
+    # Outside the clear aperture, or on the far side of the sphere (not the lens's own cap,
+    # where the normal's z part 1 - c (z - z_vertex) is not positive; also catches a
+    # non-finite t): the ray meets the mount.
+    on_cap = (r2 <= surface.semi_aperture_mm**2) & (1.0 - c * (bundle.z - surface.z_mm) > 0.0)
+    bundle = out.retire(bundle, ~on_cap, MOUNT)
     x, y = bundle.x, bundle.y
     # Unit normal along the ray's travel: (-c x, -c y, 1 - c (z - z_vertex)).
     nx, ny, nz = -c * x, -c * y, 1.0 - c * (bundle.z - surface.z_mm)

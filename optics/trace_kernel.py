@@ -228,11 +228,14 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                             break
                         t = ff / (g + math.sqrt(disc))
                         x, y, z = _advance(x, y, z, dx, dy, dz, t)
-                    if x * x + y * y > semi[e] * semi[e]:
+                    nz = 1.0 - c * (z - ze)
+                    # Outside the clear aperture, or on the far side of the sphere (not the
+                    # lens's own cap; also catches a non-finite t): the ray meets the mount.
+                    if not (x * x + y * y <= semi[e] * semi[e] and nz > 0.0):
                         fate = MOUNT
                         stopped = True
                         break
-                    nx, ny, nz = -c * x, -c * y, 1.0 - c * (z - ze)
+                    nx, ny = -c * x, -c * y
                     cos_i = dx * nx + dy * ny + dz * nz
                     flip = -1.0 if cos_i < 0.0 else 1.0
                     cos_i = abs(cos_i)

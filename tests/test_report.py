@@ -24,7 +24,9 @@ def report(tmp_path_factory):
                          "I60,60,50,13.6,biconvex,acrylic,55,2\n")
     out = folder / "out"
     assert main(["report", str(scene), "--inventory", str(inventory), "--outer", "O180",
-                 "--inner", "I60", "--builds", "4", "--out", str(out)]) == 0
+                 "--inner", "I60", "--builds", "4", "--lateral-range", "-20:20:10",
+                 "--distance-range", "400:800:200", "--height-range", "1100:1200:50",
+                 "--heights", "1150", "--out", str(out)]) == 0
     return out
 
 

@@ -9,7 +9,8 @@ from cloakview.render.planning import tolerance as tl
 from cloakview.render.scene.loader import load_scene
 from cloakview.render.sweeps.jobs import fingerprint
 from cloakview.render.sweeps.sightlines import setup_worker
-from scenes import RING, write_scene
+from scenes import RING_FITS as RING
+from scenes import write_scene
 
 IDEAL = "ideal = true"
 
@@ -23,7 +24,7 @@ def tolerance_analysis(path, tol, builds, seed, size):
 
 
 def test_zero_tolerances_reproduce_the_nominal_design(tmp_path):
-    path = write_scene(tmp_path / "s", layers=RING)
+    path = write_scene(tmp_path / "s", layers=RING, render_extra=IDEAL)
     scene = load_scene(path)
     rng = np.random.default_rng(3)
     assert tl.perturbed(scene.system, tl.Tolerances(), rng) == scene.system

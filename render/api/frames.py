@@ -22,6 +22,7 @@ from cloakview.render import outfolder
 from cloakview.render.files import atomic_write, write_json, write_png
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.outputs import run_record, write_summary, write_viewer
+from cloakview.render.frame.overlays import caption
 from cloakview.render.frame.views import VIEW_NAMES, ViewerRender, render_viewer
 from cloakview.render.progress import Progress
 from cloakview.render.scene.loader import load_scene
@@ -197,11 +198,16 @@ def render(scene: Scene | str | Path, *, viewer: str | None = None, eye_mm=None,
 
 @dataclass
 class BothEyes:
-    """Left and right eye renders, their red-cyan anaglyph and a plain statement."""
+    """Left and right eye renders, their red-cyan anaglyph and the verdict for the pair.
+
+    ``overlap`` is the intersection over union of the two through-windows (None when
+    neither eye has one); ``statement`` is the binocular verdict in words.
+    """
 
     left: ViewerRender
     right: ViewerRender
     anaglyph: np.ndarray
+    overlap: float | None
     statement: str
 
 
@@ -234,18 +240,23 @@ def eyes(scene: Scene | str | Path, *, viewer: str | None = None,
     renders = [render_viewer(scene, v, pyramids, ("cloaked",), progress=bar)
                for v in (left, right)]
     images = [r.images["cloaked"] for r in renders]
-    result = BothEyes(renders[0], renders[1], both_eyes.anaglyph(*images),
-                      both_eyes.statement(renders[0].metrics, renders[1].metrics))
+    overlap = both_eyes.window_overlap(renders[0].through, renders[1].through)
+    result = BothEyes(renders[0], renders[1], both_eyes.anaglyph(*images), overlap,
+                      both_eyes.binocular_verdict(renders[0].metrics, renders[1].metrics,
+                                                  overlap))
     if out is not None:
         with outfolder.output_folder(out, scene.sources) as top:
             folder = top / base.name
             write_png(folder / "left.png", images[0])
             write_png(folder / "right.png", images[1])
-            write_png(folder / "pair.png", np.concatenate(images, axis=1))
-            write_png(folder / "anaglyph.png", result.anaglyph)
+            write_png(folder / "pair.png", both_eyes.pair_picture(
+                images, [r.metrics["verdict"] for r in renders]))
+            write_png(folder / "anaglyph.png", caption(result.anaglyph, [
+                "red: left eye (L), cyan: right eye (R)", result.statement]))
             write_json(folder / "metrics.json", {
                 "viewer": base.name, "ipd_mm": ipd_mm, "left": renders[0].metrics,
-                "right": renders[1].metrics, "both_eyes": result.statement})
+                "right": renders[1].metrics, "window_overlap": overlap,
+                "both_eyes": result.statement})
             run_record(top, "eyes", {"scene": str(scene.path), "viewer": base.name,
                                      "ipd_mm": ipd_mm}, started)
     return result

@@ -28,14 +28,6 @@ from cloakview.render.sweeps import walk as wk
 from cloakview.render.sweeps import zone as zn
 from cloakview.render.sweeps.jobs import fingerprint, run_jobs
 
-#: Default sweep grids of :func:`sightlines`: (start, stop, step) [mm].
-LATERAL_RANGE_MM = (-150.0, 150.0, 10.0)
-DISTANCE_RANGE_MM = (600.0, 3000.0, 150.0)
-#: Default render size of one sight-line point [pixels].
-SWEEP_SIZE_PX = (96, 54)
-#: Default eye heights of :func:`sightlines` (names of :data:`sl.EYE_HEIGHTS_MM`).
-DEFAULT_HEIGHTS = ("seated", "child", "women", "men")
-
 
 def scheduler_from(scheduler: str | None) -> str | None:
     """The Dask scheduler to use: the one given, else ``$CLOAKVIEW_SCHEDULER``, else none."""
@@ -145,27 +137,9 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
         return {**summary, "rows": rows}
 
 
-def eye_heights(heights) -> dict[str, float]:
-    """Named eye heights: names of :data:`sl.EYE_HEIGHTS_MM` or numbers [mm]."""
-    chosen = {}
-    for item in heights:
-        if isinstance(item, str) and item in sl.EYE_HEIGHTS_MM:
-            chosen[item] = sl.EYE_HEIGHTS_MM[item]
-            continue
-        try:
-            value = float(item)
-        except (TypeError, ValueError):
-            raise InputError("heights", item, "use seated, child, women, men or a height "
-                             "in mm") from None
-        chosen[f"{_finite('heights', value, 0.0, 5000.0):.0f} mm"] = value
-    if not chosen:
-        raise InputError("heights", list(heights), "give at least one eye height")
-    return chosen
-
-
-def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGHTS,
-               lateral_range_mm=LATERAL_RANGE_MM, distance_range_mm=DISTANCE_RANGE_MM,
-               height_range_mm=None, size_px: tuple[int, int] = SWEEP_SIZE_PX,
+def sightlines(scene_path: str | Path, *, out: str | Path, heights=sl.DEFAULT_HEIGHTS,
+               lateral_range_mm=sl.LATERAL_RANGE_MM, distance_range_mm=sl.DISTANCE_RANGE_MM,
+               height_range_mm=None, size_px: tuple[int, int] = sl.SWEEP_SIZE_PX,
                ideal: bool | None = None, allow_outside_paths: bool = False,
                workers: int | None = None, fresh: bool = False,
                scheduler: str | None = None, progress: bool = False) -> dict:
@@ -198,33 +172,31 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
     """
     started = time.perf_counter()
     scene = load_scene(scene_path, allow_outside_paths=allow_outside_paths, ideal=ideal)
-    named = eye_heights(heights)
-    xs = sl.grid(*lateral_range_mm, "lateral_range_mm", -20_000.0, 20_000.0)
-    ds = sl.grid(*distance_range_mm, "distance_range_mm", -100_000.0, 100_000.0)
-    if min(ds) <= 0:
-        raise InputError("distance_range_mm", list(distance_range_mm),
-                         "distances from the panel must be greater than 0")
+    named = sl.named_heights(heights)
     axis = scene.placement.axis_height_mm
-    hs = sl.grid(*(height_range_mm or (min(900.0, axis - 400.0), max(1800.0, axis + 400.0),
-                                        25.0)), "height_range_mm", 0.0, 5000.0)
-    floor = sl.floor_jobs(xs, ds, list(named.values()), size_px)
-    side = sl.elevation_jobs(hs, ds, size_px)
+    xs, ds, hs = sl.grids(lateral_range_mm, distance_range_mm, height_range_mm, axis)
     outfolder.check(out, scene.sources)  # before the sweep, not after it
-    bar = Progress(len(floor) + len(side), "sight lines", enabled=progress)
-    rows, reused = run_jobs(sl.measure_point, floor + side, "sightlines", sl.setup_worker,
-                            (str(scene_path), allow_outside_paths, ideal),
-                            context=fingerprint(scene.sources, ideal=ideal,
-                                                allow_outside=allow_outside_paths),
-                            workers=workers, progress=bar, fresh=fresh,
-                            files=scene.sources, scheduler=scheduler_from(scheduler))
-    floor_rows, side_rows = rows[:len(floor)], rows[len(floor):]
+    context = fingerprint(scene.sources, ideal=ideal, allow_outside=allow_outside_paths)
+    reused = 0
+
+    def run(jobs, label):
+        nonlocal reused
+        rows, count = run_jobs(sl.measure_point, jobs, "sightlines", sl.setup_worker,
+                               (str(scene_path), allow_outside_paths, ideal), context=context,
+                               workers=workers, progress=Progress(len(jobs), label,
+                                                                  enabled=progress),
+                               fresh=fresh, files=scene.sources,
+                               scheduler=scheduler_from(scheduler))
+        reused += count
+        return rows
+
+    found = sl.sweep(run, named, xs, ds, hs, size_px, axis)
+    by_height, side_rows = found["floor"], found["elevation"]
+    rows = [*(r for subset in by_height.values() for r in subset), *side_rows]
     with outfolder.output_folder(out, scene.sources) as out:
-        by_height = {}
         for name, h in named.items():
-            subset = [r for r in floor_rows if r["h"] == h]
-            by_height[name] = subset
             write_png(out / f"floor_{name.replace(' ', '')}.png", charts.floor_plan_image(
-                scene, subset, xs, ds, h, f"{scene.title}: where it works ({name})"))
+                scene, by_height[name], xs, ds, h, f"{scene.title}: where it works ({name})"))
         write_png(out / "elevation.png", charts.elevation_image(
             scene, side_rows, hs, ds, f"{scene.title}: eye heights"))
         write_csv(out / "sightlines.csv", rows)
@@ -232,9 +204,9 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=DEFAULT_HEIGH
                   "works_counts": {name: sum(r["class"] == "works" for r in subset)
                                    for name, subset in by_height.items()},
                   "floor_points": {name: len(subset) for name, subset in by_height.items()},
-                  "recommendation": sl.recommendation(by_height, side_rows, axis),
+                  "recommendation": found["recommendation"], "spot": found["spot"],
                   "reused": reused, "seconds": round(time.perf_counter() - started, 2),
-                  "points": rows}
+                  "points": rows, "margin_points": found["margin_lines"]}
         write_json(out / "sightlines.json", result)
         run_record(out, "sightlines", {"scene": str(scene_path), "heights_mm": named,
                                        "lateral_range_mm": list(lateral_range_mm),

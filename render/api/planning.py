@@ -31,12 +31,6 @@ DESIGN_COLUMNS = ("rank", "pareto", "outer", "inner", "f_outer_mm", "f_inner_mm"
 #: A device longer than this is flagged even without a length limit [mm]: longer than most
 #: gallery rooms allow for one exhibit plus its viewing distance (our own choice).
 PRACTICAL_LENGTH_MM = 3000.0
-#: Default render size of one tolerance build [pixels].
-BUILD_SIZE_PX = (128, 72)
-#: Default builds per tolerance setting: the fewest for which the 95 % interval of a yield
-#: near 50 % (the widest case) is at most +-10 %: 1.96 sqrt(0.25 / 97) = 0.0995 (normal
-#: approximation of the binomial; Wilson 1927 gives a similar width there).
-DEFAULT_BUILDS = 97
 
 
 def _limit(key: str, value, low: float) -> float:
@@ -158,8 +152,8 @@ def check_tolerances(axial_mm: float, decenter_mm: float, tilt_deg: float,
 
 def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
               decenter_mm: float = 0.5, tilt_deg: float = 0.5, focal_pct: float = 1.0,
-              builds: int = DEFAULT_BUILDS, seed: int = 1,
-              size_px: tuple[int, int] = BUILD_SIZE_PX,
+              builds: int = tl.DEFAULT_BUILDS, seed: int = 1,
+              size_px: tuple[int, int] = tl.BUILD_SIZE_PX,
               ideal: bool | None = None, allow_outside_paths: bool = False,
               workers: int | None = None, fresh: bool = False,
               scheduler: str | None = None, progress: bool = False) -> dict:

@@ -29,6 +29,11 @@ from cloakview.render.sweeps import walk as wk
 from cloakview.render.sweeps import zone as zn
 from cloakview.render.sweeps.jobs import fingerprint, run_jobs
 
+#: The numbers of each visitor view the report keeps.
+REPORTED = ("replaced_fraction", "blocked_fraction", "showing_fraction", "hidden_fraction",
+            "window_deg", "window_panel_mm", "object_outer_deg", "background_ssim",
+            "transmittance", "color_fringe_arcmin", "verdict", "advice")
+
 ASSUMPTIONS = (
     "Geometric optics: exact ray tracing through spherical lens surfaces, Fresnel "
     "reflection losses, dispersion at 486, 588 and 656 nm; no diffraction, no "
@@ -66,10 +71,25 @@ def _with_inventory_lenses(scene, inventory, outer, inner):
     return scene, {"outer": items[outer].price, "inner": items[inner].price}
 
 
+def report_state(scene_path: str, allow_outside: bool, inventory: str | None,
+                 outer: str | None, inner: str | None):
+    """Per-worker state of the report's sweeps: its scene at the design wavelength, pyramids.
+
+    The same device as the report's (rebuilt from inventory lenses where given), so the
+    sweeps can run on the process pool.
+    """
+    scene = load_scene(scene_path, allow_outside_paths=allow_outside)
+    quick = _with_inventory_lenses(scene, inventory, outer, inner)[0].at_design_wavelength()
+    return quick, TexturePyramids(quick)
+
+
 def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | None = None,
            outer: str | None = None, inner: str | None = None, axial_mm: float = 1.0,
            decenter_mm: float = 0.5, tilt_deg: float = 0.5, focal_pct: float = 1.0,
-           builds: int = 20, allow_outside_paths: bool = False,
+           builds: int = tl.DEFAULT_BUILDS, heights=sl.DEFAULT_HEIGHTS,
+           lateral_range_mm=sl.LATERAL_RANGE_MM, distance_range_mm=sl.DISTANCE_RANGE_MM,
+           height_range_mm=None, size_px: tuple[int, int] = sl.SWEEP_SIZE_PX,
+           workers: int | None = None, allow_outside_paths: bool = False,
            progress: bool = False) -> dict:
     """Write a proposal folder and return the dictionary behind its page (``report.json``).
 
@@ -85,6 +105,11 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
         Build tolerances (+-) for the tolerance section [mm, mm, deg, %].
     builds : int
         Builds per tolerance setting (1 to 10000).
+    heights, lateral_range_mm, distance_range_mm, height_range_mm, size_px
+        The sight-line sweep, as for :func:`cloakview.sightlines` (the same defaults, so
+        the report and ``cloakview sightlines`` give the same numbers).
+    workers : int, optional
+        Processes for the sweeps (default one per core).
     """
     started = time.perf_counter()
     tol = check_tolerances(axial_mm, decenter_mm, tilt_deg, focal_pct)
@@ -92,6 +117,9 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
         raise InputError("builds", builds, "must be 1 to 10000")
     scene = load_scene(scene_path, allow_outside_paths=allow_outside_paths)
     scene, prices = _with_inventory_lenses(scene, inventory, outer, inner)
+    axis = scene.placement.axis_height_mm
+    named = sl.named_heights(heights)
+    xs, ds, hs = sl.grids(lateral_range_mm, distance_range_mm, height_range_mm, axis)
     if scene.design is None:
         raise InputError("device", str(scene_path), "the report needs a device laid out by the "
                          "designer (f_outer_mm/f_inner_mm) or inventory lenses (outer/inner)")
@@ -112,11 +140,8 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
             write_png(out / name, r.images["cloaked"])
             shift = r.metrics["background_shift_arcmin"]
             views.append({"name": viewer.name, "image": name, "eye_mm": list(viewer.eye_mm),
-                          "hidden_fraction": r.metrics["hidden_fraction"],
-                          "background_ssim": r.metrics["background_ssim"],
-                          "shift_median_arcmin": shift and shift["median"],
-                          "transmittance": r.metrics["transmittance"],
-                          "verdict": r.metrics["verdict"]})
+                          **{key: r.metrics[key] for key in REPORTED},
+                          "shift_median_arcmin": shift and shift["median"]})
         bar("visitor views")
         base = scene.viewers[0]
         distance = float(scene.housing.panel_z_mm - scene.placement.to_device(
@@ -129,30 +154,37 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
             walk_rows.append({"eye_x_mm": float(eye[0]), "verdict": r.metrics["verdict"]})
         write_png(out / "walk_strip.png", np.concatenate(strip, axis=1))
         bar("walk-by")
-        quick = scene.at_design_wavelength()
-        state = (quick, TexturePyramids(quick))
-        axis = scene.placement.axis_height_mm
-        xs, ds = sl.grid(-60, 60, 10, "x"), sl.grid(600, 3000, 200, "d")
-        hs = sl.grid(axis - 200, axis + 200, 25, "h")
-        jobs = sl.floor_jobs(xs, ds, [axis], (96, 54)) + sl.elevation_jobs(hs, ds, (96, 54))
+        # The same grids, render size and heights as `cloakview sightlines` by default, so
+        # one scene gives one set of numbers.
         context = fingerprint([*scene.sources, *([inventory] if inventory else [])],
                               outer=outer, inner=inner, allow_outside=allow_outside_paths)
-        rows, _ = run_jobs(sl.measure_point, jobs, "sightlines", lambda: state, context=context,
-                           workers=1)
-        floor, side = rows[:len(xs) * len(ds)], rows[len(xs) * len(ds):]
-        write_png(out / "sightlines.png", charts.floor_plan_image(
-            scene, floor, xs, ds, axis, f"{scene.title}: where it works"))
+        setup_args = (str(scene_path), allow_outside_paths,
+                      str(inventory) if inventory else None, outer, inner)
+        files = [*scene.sources, *([Path(inventory)] if inventory else [])]
+
+        def run(jobs, label):
+            return run_jobs(sl.measure_point, jobs, "sightlines", report_state, setup_args,
+                            context=context, files=files, workers=workers)[0]
+
+        found = sl.sweep(run, named, xs, ds, hs, size_px, axis)
+        floor_pictures = []
+        for name, h in named.items():
+            picture = f"floor_{name}.png"
+            write_png(out / picture, charts.floor_plan_image(
+                scene, found["floor"][name], xs, ds, h,
+                f"{scene.title}: where it works ({name})"))
+            floor_pictures.append({"name": name, "height_mm": h, "image": picture})
         write_png(out / "elevation.png", charts.elevation_image(
-            scene, side, hs, ds, f"{scene.title}: eye heights"))
-        advice = sl.recommendation({f"{axis:.0f} mm": floor}, side, axis)
+            scene, found["elevation"], hs, ds, f"{scene.title}: eye heights"))
         bar("sight lines")
         zone_map = zn.cloaked_zone(scene, np.array([base.eye_mm]))
         rings = zn.largest_rings(zone_map, scene)
         write_png(out / "zone.png", charts.zone_image(
             zone_map, scene, rings, f"{scene.title}: cloaked zone for '{base.name}'"))
         bar("cloaked zone")
-        summary, build_rows, _ = tl.analyse(tol, builds, 1, (128, 72), lambda: state,
-                                            context=context, workers=1)
+        summary, build_rows, _ = tl.analyse(tol, builds, 1, tl.BUILD_SIZE_PX, report_state,
+                                            setup_args, context=context, files=files,
+                                            workers=workers)
         write_png(out / "histograms.png", charts.histogram_image(
             build_rows, f"{builds} builds: yield {summary['yield']:.0%}"))
         bar("tolerances")
@@ -160,15 +192,20 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
             "title": scene.title, "version": program_version(),
             "summary": (f"This proposal previews a four-lens 'vanishing' exhibit: lenses of "
                         f"{design['f_outer_mm']:.0f} mm and {design['f_inner_mm']:.0f} mm focal "
-                        f"length on a {design['length_mm'] / 1000:.2f} m rail make the view "
-                        "through them look like empty space, so an object placed in the ring "
-                        "around the axis inside the device disappears. From the design viewing "
-                        f"point ('{base.name}'), {_pct(views[0]['hidden_fraction'])} of the "
-                        "object vanishes; the pages below show what visitors of different "
-                        "heights see, from where it works, what can be hidden, and how "
-                        "precisely it must be built."),
+                        f"length on a {design['length_mm'] / 1000:.2f} m rail bend light as "
+                        "empty space would, so an object in the ring around the axis inside "
+                        "the device drops out of sight; background takes its place only where "
+                        "the object lies inside the through-window. From the design viewing "
+                        f"point ('{base.name}'), background fills "
+                        f"{_pct(views[0]['replaced_fraction'])} of the object's place, dark "
+                        f"housing {_pct(views[0]['blocked_fraction'])} and the object itself "
+                        f"{_pct(views[0]['showing_fraction'])} (verdict: "
+                        f"{views[0]['verdict']}). The pages below show what visitors of "
+                        "different heights see, from where it works, what can be hidden, and "
+                        "how precisely it must be built."),
             "design": design, "lens_cost": cost, "views": views, "walk": walk_rows,
-            "walk_distance_mm": distance, "recommendation": advice,
+            "walk_distance_mm": distance, "recommendation": found["recommendation"],
+            "spot": found["spot"], "floor_plans": floor_pictures,
             "works_definition": WORKS_DEFINITION.removeprefix("works: "),
             "rings": [dict(dataclasses.asdict(r), height_mm=r.height_mm, length_mm=r.length_mm)
                       for r in rings],

@@ -13,6 +13,7 @@ from cloakview.optics.materials import MATERIALS
 from cloakview.render.api import frames as api
 from cloakview.render.cautions import cautions_text
 from cloakview.render.cli import options as opt
+from cloakview.render.frame.metrics import WORKS_DEFINITION
 from cloakview.render.frame.views import VIEW_NAMES
 from cloakview.render.proposal.design_summary import summarise, table
 
@@ -38,19 +39,30 @@ def _fmt(value, pattern="{:.3f}"):
 
 
 def _print_table(renders, out: Path) -> None:
-    print(f"{'viewer':<16}{'hidden':>8}{'SSIM':>7}{'shift':>8}{'trans':>7}{'fringe':>8}"
-          f"{'s':>6}  verdict")
+    print(f"{'viewer':<16}{'filled':>7}{'dark':>6}{'seen':>6}{'window':>8}{'object':>8}"
+          f"{'SSIM':>7}{'shift':>7}{'fringe':>7}{'trans':>7}  verdict")
     for r in renders:
         mt = r.metrics
         shift = mt["background_shift_arcmin"]
-        print(f"{r.viewer.name:<16}{_fmt(mt['hidden_fraction'], '{:.1%}'):>8}"
-              f"{_fmt(mt['background_ssim']):>7}"
-              f"{_fmt(shift and shift['median'], '{:.2f}'):>8}"
-              f"{_fmt(mt['transmittance']):>7}{_fmt(mt['color_fringe_arcmin'], '{:.2f}'):>8}"
-              f"{r.seconds:>6.1f}  {mt['verdict']}")
-    print("hidden = share of the object that vanishes; SSIM = background likeness through "
-          "the lenses;\nshift, fringe = median background displacement and colour spread "
-          "[arcmin at the eye]; trans = light through the lenses")
+        print(f"{r.viewer.name:<16}{_fmt(mt['replaced_fraction'], '{:.0%}'):>7}"
+              f"{_fmt(mt['blocked_fraction'], '{:.0%}'):>6}"
+              f"{_fmt(mt['showing_fraction'], '{:.0%}'):>6}"
+              f"{_fmt(mt['window_deg'], '{:.2f}'):>8}"
+              f"{_fmt(mt['object_outer_deg'], '{:.2f}'):>8}"
+              f"{_fmt(mt['background_ssim'], '{:.2f}'):>7}"
+              f"{_fmt(shift and shift['median'], '{:.1f}'):>7}"
+              f"{_fmt(mt['color_fringe_arcmin'], '{:.1f}'):>7}"
+              f"{_fmt(mt['transmittance'], '{:.2f}'):>7}"
+              f"  {mt['verdict']}")
+    print("Where the object was (without lenses), the view through them shows: filled = "
+          "background, dark = tube or\nlens mount, seen = the object. window = radius of the "
+          "through-window, object = the object's\nfarthest point from its centre [deg]. "
+          "SSIM = background likeness; shift, fringe = median\nbackground displacement and "
+          "blue-red spread [arcmin]; trans = light through the lenses.")
+    print(WORKS_DEFINITION[0].upper() + WORKS_DEFINITION[1:] + ".")
+    for r in renders:
+        for line in r.metrics["advice"]:
+            print(line)
     print(f"Images and metrics written to {out.resolve()}")
     print()
     print(cautions_text())
@@ -103,13 +115,14 @@ def _eyes(args) -> int:
     if args.json:
         print(json.dumps({"viewer": pair.left.viewer.name.removesuffix("-left"),
                           "ipd_mm": args.ipd, "left": pair.left.metrics,
-                          "right": pair.right.metrics, "both_eyes": pair.statement}, indent=2))
+                          "right": pair.right.metrics, "window_overlap": pair.overlap,
+                          "both_eyes": pair.statement}, indent=2))
         return 0
-    for side, r in (("left", pair.left), ("right", pair.right)):
-        hidden = r.metrics["hidden_fraction"]
-        print(f"{side:>5} eye: hidden {'-' if hidden is None else format(hidden, '.0%')}, "
-              f"{r.metrics['verdict']}")
-    print(pair.statement)
+    for side, r in (("L, left", pair.left), ("R, right", pair.right)):
+        print(f"{side:>8} eye: {r.metrics['verdict']}")
+    overlap = "-" if pair.overlap is None else f"{pair.overlap:.0%}"
+    print(f"through-windows overlap: {overlap}")
+    print(f"both eyes: {pair.statement}")
     folder = Path(args.out) / pair.left.viewer.name.removesuffix("-left")
     print(f"Wrote left, right, pair and anaglyph (red-cyan) pictures to {folder}")
     return 0

@@ -34,22 +34,18 @@ def _walk(args) -> int:
 
 def _sightlines(args) -> int:
     result = api.sightlines(
-        args.scene, out=args.out, heights=opt.words(args.heights),
-        lateral_range_mm=opt.sweep_range(args.lateral_range, "--lateral-range"),
-        distance_range_mm=opt.sweep_range(args.distance_range, "--distance-range"),
-        height_range_mm=opt.sweep_range(args.height_range, "--height-range")
-        if args.height_range else None,
-        size_px=opt.size(args.size), ideal=True if args.ideal else None,
+        args.scene, out=args.out, **opt.sight_lines(args), ideal=True if args.ideal else None,
         allow_outside_paths=args.allow_outside_paths, workers=args.workers,
         fresh=args.fresh, scheduler=args.scheduler, progress=not args.json)
     if args.json:
-        print(json.dumps({k: v for k, v in result.items() if k != "points"}, indent=2))
+        print(json.dumps({k: v for k, v in result.items()
+                          if k not in ("points", "margin_points")}, indent=2))
         return 0
     for name, works in result["works_counts"].items():
         print(f"{name:>10}: works at {works} of {result['floor_points'][name]} floor points")
     print(result["recommendation"])
     print(f"Maps and tables written to {args.out} in {result['seconds']:.1f} s."
-          + opt.reuse_note(result, len(result["points"])))
+          + opt.reuse_note(result, len(result["points"]) + len(result["margin_points"])))
     return 0
 
 
@@ -106,25 +102,13 @@ def add_commands(commands) -> None:
     s = commands.add_parser("sightlines", help="floor-plan and elevation maps of where "
                             "visitors can stand and still see the effect")
     opt.add_scene(s, viewer=False)
-    s.add_argument("--heights", default=",".join(api.DEFAULT_HEIGHTS), metavar="LIST",
-                   help="eye heights of the floor plans: seated, child, women, men or "
-                   "numbers in mm")
-    s.add_argument("--lateral-range", default="{:g}:{:g}:{:g}".format(*api.LATERAL_RANGE_MM),
-                   metavar="START:STOP:STEP", help="sideways offsets from the axis [mm]")
-    s.add_argument("--distance-range",
-                   default="{:g}:{:g}:{:g}".format(*api.DISTANCE_RANGE_MM),
-                   metavar="START:STOP:STEP", help="distances from the front panel [mm]")
-    s.add_argument("--height-range", metavar="START:STOP:STEP",
-                   help="eye heights of the elevation map [mm] (default: 900 to 1800, or "
-                   "400 either side of the axis if wider, in 25 mm steps)")
+    opt.add_sight_lines(s)
     s.add_argument("--lateral", dest="lateral_range", action=opt.RenamedOption,
                    new_name="--lateral-range", metavar="START:STOP:STEP")
     s.add_argument("--distance", dest="distance_range", action=opt.RenamedOption,
                    new_name="--distance-range", metavar="START:STOP:STEP")
     s.add_argument("--elevation", dest="height_range", action=opt.RenamedOption,
                    new_name="--height-range", metavar="START:STOP:STEP")
-    s.add_argument("--size", default="{}x{}".format(*api.SWEEP_SIZE_PX), metavar="WxH",
-                   help="render size of each point in pixels")
     opt.add_workers(s)
     opt.add_out(s, "cloakview-sightlines", "the maps and tables")
     opt.add_json(s, "the summary")

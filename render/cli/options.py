@@ -15,6 +15,7 @@ import re
 import sys
 
 from cloakview.optics.errors import InputError
+from cloakview.render.sweeps import sightlines as sl
 
 
 class UsageError(Exception):
@@ -167,6 +168,34 @@ def reuse_note(result: dict, total: int) -> str:
 def add_json(parser, what: str) -> None:
     """``--json``: print machine-readable output instead of a table."""
     parser.add_argument("--json", action="store_true", help=f"print {what} as JSON")
+
+
+def add_sight_lines(parser) -> None:
+    """The sight-line sweep's options (``sightlines`` and ``report`` share them)."""
+    parser.add_argument("--heights", default=",".join(sl.DEFAULT_HEIGHTS), metavar="LIST",
+                        help="eye heights of the floor plans: seated, child, women, men or "
+                        "numbers in mm")
+    parser.add_argument("--lateral-range", metavar="START:STOP:STEP",
+                        default="{:g}:{:g}:{:g}".format(*sl.LATERAL_RANGE_MM),
+                        help="sideways offsets from the axis [mm]")
+    parser.add_argument("--distance-range", metavar="START:STOP:STEP",
+                        default="{:g}:{:g}:{:g}".format(*sl.DISTANCE_RANGE_MM),
+                        help="distances from the front panel [mm]")
+    parser.add_argument("--height-range", metavar="START:STOP:STEP",
+                        help="eye heights of the elevation map [mm] (default: 900 to 1800, "
+                        "or 400 either side of the axis if wider, in 25 mm steps)")
+    parser.add_argument("--size", default="{}x{}".format(*sl.SWEEP_SIZE_PX), metavar="WxH",
+                        help="render size of each sight-line point in pixels")
+
+
+def sight_lines(args) -> dict:
+    """Keyword arguments of the sight-line sweep from the parsed options."""
+    return {"heights": words(args.heights),
+            "lateral_range_mm": sweep_range(args.lateral_range, "--lateral-range"),
+            "distance_range_mm": sweep_range(args.distance_range, "--distance-range"),
+            "height_range_mm": sweep_range(args.height_range, "--height-range")
+            if args.height_range else None,
+            "size_px": size(args.size)}
 
 
 def add_tolerances(parser) -> None:

@@ -9,6 +9,7 @@ from pathlib import Path
 from cloakview.optics.errors import InputError
 from cloakview.render.api import planning as api
 from cloakview.render.cli import options as opt
+from cloakview.render.planning import tolerance as tl
 from cloakview.render.planning.tolerance import LABELS
 
 
@@ -124,11 +125,11 @@ def add_commands(commands) -> None:
                             "tolerance matters most, and the tolerances for 95 %% yield")
     opt.add_scene(t, viewer=False)
     opt.add_tolerances(t)
-    t.add_argument("--builds", type=int, default=api.DEFAULT_BUILDS, metavar="N",
+    t.add_argument("--builds", type=int, default=tl.DEFAULT_BUILDS, metavar="N",
                    help="builds per setting, 1-10000; the default keeps the yield's 95 %% "
                    "interval within +-10 %%")
     t.add_argument("--seed", type=int, default=1, help="random seed, 0 or more")
-    t.add_argument("--size", default="{}x{}".format(*api.BUILD_SIZE_PX), metavar="WxH",
+    t.add_argument("--size", default="{}x{}".format(*tl.BUILD_SIZE_PX), metavar="WxH",
                    help="render size of each build in pixels")
     opt.add_workers(t)
     opt.add_out(t, "cloakview-tolerance", "the yield table, builds and histograms")

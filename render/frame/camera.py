@@ -72,6 +72,27 @@ def pixel_directions(viewer: Viewer, supersample: int, row_range=None,
     return d
 
 
+def device_directions(viewer: Viewer, placement: Placement, supersample: int = 1,
+                      row_range=None) -> np.ndarray:
+    """Pinhole unit directions (rows, columns, 3) of ``viewer``'s samples, in the device frame."""
+    basis = tuple(placement.directions_to_device(v) for v in _basis(viewer))
+    return pixel_directions(viewer, supersample, row_range, basis)
+
+
+def pixel_solid_angles(viewer: Viewer, placement: Placement,
+                       directions: np.ndarray) -> np.ndarray:
+    """Solid angle [sr] of each pixel of ``viewer``, from its device-frame ``directions``.
+
+    On the image plane at unit distance a pixel is a square of side 2 tan(fov/2) / width;
+    seen from the eye it spans that area times cos^3 of its angle off the gaze (the
+    inverse square law and the obliquity of a flat image plane, e.g. Pharr, Jakob and
+    Humphreys [2], sec. 5.5).
+    """
+    forward = placement.directions_to_device(_basis(viewer)[0])
+    side = 2.0 * math.tan(math.radians(viewer.fov_deg) / 2.0) / viewer.width_px
+    return side * side * (directions @ forward) ** 3
+
+
 def _pupil_offsets(viewer: Viewer) -> np.ndarray:
     """Pupil sample points (P, 2) in mm, Vogel spiral [1]."""
     count = viewer.pupil_samples if viewer.pupil_mm > 0 else 1
@@ -100,8 +121,7 @@ def camera_rays(viewer: Viewer, placement: Placement, supersample: int,
     row_range : tuple of int, optional
         (first, stop) sample rows to make, for rendering in bands.
     """
-    basis = tuple(placement.directions_to_device(v) for v in _basis(viewer))
-    directions = pixel_directions(viewer, supersample, row_range, basis)
+    directions = device_directions(viewer, placement, supersample, row_range)
     rows, cols = directions.shape[:2]
     offsets = _pupil_offsets(viewer)
     eye = placement.to_device(np.asarray(viewer.eye_mm, float))

@@ -7,9 +7,11 @@ from pathlib import Path
 
 from cloakview.render.files import run_record, write_csv, write_json, write_png
 
-_CSV_COLUMNS = ("viewer", "hidden_fraction", "object_seen_ratio", "background_ssim",
+_CSV_COLUMNS = ("viewer", "replaced_fraction", "blocked_fraction", "showing_fraction",
+                "hidden_fraction", "object_seen_ratio", "window_deg", "window_panel_mm",
+                "window_share", "object_inner_deg", "object_outer_deg", "background_ssim",
                 "shift_median_arcmin", "shift_p95_arcmin", "transmittance",
-                "color_fringe_arcmin", "through_pixels", "verdict")
+                "color_fringe_arcmin", "through_pixels", "verdict_class", "verdict")
 
 
 def _csv_row(metrics: dict) -> dict:

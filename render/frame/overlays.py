@@ -6,7 +6,8 @@ import cv2
 import numpy as np
 
 #: Overlay colours of the vanish view (sRGB, our own palette).
-VANISHED_RGB = (0.12, 0.71, 0.66)
+REPLACED_RGB = (0.12, 0.71, 0.66)
+BLOCKED_RGB = (0.52, 0.30, 0.85)
 SHOWING_RGB = (0.91, 0.33, 0.23)
 OUTLINE_RGB = (1.0, 0.86, 0.25)
 
@@ -38,27 +39,48 @@ def with_legend(image: np.ndarray, text: str) -> np.ndarray:
     return out
 
 
-def vanish_image(cloaked_srgb, cloaked_cov, naked_cov) -> np.ndarray:
-    """The view softened, the object's outline without lenses, vanished and seen parts."""
+def vanish_image(cloaked_srgb, cloaked_object, cloaked_replaced, naked_object) -> np.ndarray:
+    """The view softened, the object's outline without lenses, and what took its place.
+
+    Inside the outline: teal where background seen through the lenses replaced the
+    object, violet where the tube or a lens mount hides it (a dark patch in the view);
+    red wherever the object itself is still seen.
+    """
     base = 0.2 + 0.6 * cloaked_srgb  # the view itself, softened so the overlay reads
-    outline_mask = (naked_cov >= 0.5).astype(np.uint8)
-    vanished = (naked_cov >= 0.5) & (cloaked_cov < 0.5)
-    showing = cloaked_cov >= 0.5
+    place = naked_object >= 0.5
+    showing = cloaked_object >= 0.5
+    replaced = place & ~showing & (cloaked_replaced >= 0.5)
+    blocked = place & ~showing & ~replaced
     out = base.copy()
-    out[vanished] = 0.45 * out[vanished] + 0.55 * np.array(VANISHED_RGB)
-    out[showing] = 0.3 * out[showing] + 0.7 * np.array(SHOWING_RGB)
+    for mask, colour, keep in ((replaced, REPLACED_RGB, 0.45), (blocked, BLOCKED_RGB, 0.35),
+                               (showing, SHOWING_RGB, 0.3)):
+        out[mask] = keep * out[mask] + (1.0 - keep) * np.array(colour)
     image = np.round(np.clip(out, 0, 1) * 255).astype(np.uint8)
-    contours, _ = cv2.findContours(outline_mask, cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE)
+    contours, _ = cv2.findContours(place.astype(np.uint8), cv2.RETR_EXTERNAL,
+                                   cv2.CHAIN_APPROX_NONE)
     colour = tuple(int(c * 255) for c in OUTLINE_RGB)
     cv2.drawContours(image, contours, -1, colour, max(1, image.shape[0] // 240), cv2.LINE_AA)
-    return with_legend(image, "outline: object without lenses   teal: vanished   "
-                        "red: still seen")
+    return with_legend(image, "outline: object without lenses | in it, teal: background, "
+                       "violet: dark housing | red: object seen")
+
+
+def corner_label(image: np.ndarray, text: str) -> np.ndarray:
+    """A copy of ``image`` with ``text`` in large white letters on a dark box, top left."""
+    out = image.copy()
+    scale = max(0.6, image.shape[0] / 360)
+    (w, h), base = cv2.getTextSize(text, cv2.FONT_HERSHEY_SIMPLEX, scale, 2)
+    cv2.rectangle(out, (4, 4), (16 + w, 16 + h + base), (28, 28, 28), -1)
+    cv2.putText(out, text, (10, 10 + h), cv2.FONT_HERSHEY_SIMPLEX, scale, (255, 255, 255), 2,
+                cv2.LINE_AA)
+    return out
 
 
 def caption(image: np.ndarray, lines: list[str]) -> np.ndarray:
     """``image`` with a dark strip of text ``lines`` below it, shrunk to fit the width."""
     h, w = image.shape[:2]
-    strip = np.full((22 * len(lines) + 8, w, 3), 28, np.uint8)
+    rows = 22 * len(lines) + 8
+    rows += (h + rows) % 2  # an even total height, as video encoders want
+    strip = np.full((rows, w, 3), 28, np.uint8)
     for i, text in enumerate(lines):
         scale = 0.45 * min(1.0, (w - 10) / max(1, cv2.getTextSize(
             text, cv2.FONT_HERSHEY_SIMPLEX, 0.45, 1)[0][0]))

@@ -30,18 +30,29 @@ from cloakview.render.frame.composite import (
     resolve_samples,
 )
 from cloakview.render.frame.mapper import SETUPS, map_rays
+from cloakview.render.frame.window import inside_window_advice, window_measures
 from cloakview.render.scene.model import Scene, Viewer
 
 VIEW_NAMES = ("cloaked", "reference", "naked", "difference", "vanish")
+#: The metrics of what is seen where the object was (see :func:`metrics.place_split`).
+PLACE_KEYS = ("replaced_fraction", "blocked_fraction", "showing_fraction", "hidden_fraction",
+              "object_seen_ratio")
+#: The numbers a sweep keeps of each render (a sight-line point, a walk-by frame).
+POINT_KEYS = (*PLACE_KEYS, "background_ssim", "window_deg", "through_pixels", "verdict")
 
 @dataclass
 class ViewerRender:
-    """Images (8-bit sRGB) and metrics of one viewer."""
+    """Images (8-bit sRGB) and metrics of one viewer.
+
+    ``through`` is the share of each pixel's rays (H, W) that pass the whole device in
+    the cloaked view: the through-window as a mask.
+    """
 
     viewer: Viewer
     images: dict[str, np.ndarray]
     metrics: dict
     seconds: float
+    through: np.ndarray
 
 
 #: Rays per band: frames are traced and composited in bands of rows of about this many
@@ -124,12 +135,18 @@ class RayRecord:
 
 @dataclass
 class TracedView:
-    """One traced view: linear image, per-pixel coverages and per-ray records."""
+    """One traced view: linear image, per-pixel coverages (0 to 1) and per-ray records.
+
+    ``hidden``: covered by a hidden object; ``entered``: rays that entered the viewing
+    hole; ``through``: rays that passed the whole device; ``replaced``: rays that passed
+    the whole device and were not covered by a hidden object (background seen through).
+    """
 
     image: np.ndarray
     hidden: np.ndarray
     entered: np.ndarray
     through: np.ndarray
+    replaced: np.ndarray
     records: dict[float, RayRecord]
 
 
@@ -161,7 +178,8 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
     wall = _front_background(scene).name
     h, w = viewer.height_px, viewer.width_px
     image = np.zeros((h, w, 3), np.float32)
-    cover = {name: np.zeros((h, w), np.float32) for name in ("hidden", "entered", "through")}
+    cover = {name: np.zeros((h, w), np.float32)
+             for name in ("hidden", "entered", "through", "replaced")}
     parts = {wl: [] for wl in kept}
     offset = 0
     for r0, r1 in _bands(viewer, supersample):
@@ -172,8 +190,9 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
         base, hidden, levels = composite_rays(scene, ray_map, pyramids, shape)
         entered = np.flatnonzero(ray_map.result.entered)
         cover["hidden"][rows] = resolve_samples(hidden, shape, supersample)[..., 0]
-        for name, values in (("entered", ray_map.result.entered),
-                             ("through", ray_map.through_device)):
+        through = ray_map.through_device
+        for name, values in (("entered", ray_map.result.entered), ("through", through),
+                             ("replaced", through * (1.0 - hidden))):
             cover[name][rows] = resolve_samples(values.astype(np.float32), shape,
                                                 supersample)[..., 0]
         for wl in order:
@@ -202,7 +221,8 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
     records = {wl: RayRecord(*(np.concatenate(column) for column in zip(*chunks,
                                                                         strict=True)))
                for wl, chunks in parts.items()}
-    return TracedView(image, cover["hidden"], cover["entered"], cover["through"], records)
+    return TracedView(image, cover["hidden"], cover["entered"], cover["through"],
+                      cover["replaced"], records)
 
 
 def _front_background(scene: Scene):
@@ -245,17 +265,19 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
                                              traced["cloaked"].entered >= 0.5)
         elif name == "vanish":
             images[name] = overlays.vanish_image(srgb["cloaked"], traced["cloaked"].hidden,
-                                         traced["naked"].hidden)
-    return ViewerRender(viewer, images, metrics, time.perf_counter() - start)
+                                                 traced["cloaked"].replaced,
+                                                 traced["naked"].hidden)
+    return ViewerRender(viewer, images, metrics, time.perf_counter() - start,
+                        traced["cloaked"].through)
 
 
 def _measure(scene, viewer, traced, srgb) -> dict:
-    cloaked = traced["cloaked"]
+    cloaked, naked = traced["cloaked"], traced["naked"]
     records = cloaked.records
     seen = records[nearest_to_d_line(list(records))]
     ref = next(iter(traced["reference"].records.values()))
     through_px = cloaked.through >= 0.999
-    hidden, ratio = m.hidden_fraction(cloaked.hidden, traced["naked"].hidden)
+    place = m.place_split(naked.hidden, cloaked.hidden, cloaked.replaced)
     wall = _front_background(scene)
     eye = scene.placement.to_device(np.asarray(viewer.eye_mm, float))
     at = np.searchsorted(ref.index, seen.index)  # the same rays in the reference view
@@ -277,8 +299,7 @@ def _measure(scene, viewer, traced, srgb) -> dict:
         "viewer": viewer.name,
         "eye_mm": list(viewer.eye_mm),
         "wavelengths_nm": list(scene.settings.wavelengths_nm),
-        "hidden_fraction": hidden,
-        "object_seen_ratio": ratio,
+        **(place or dict.fromkeys(PLACE_KEYS)),
         "background_ssim": m.background_ssim(srgb["cloaked"], srgb["reference"], through_px),
         "background_shift_arcmin": m.percentiles(shift),
         "background_shift_mm": m.percentiles(shift_mm),
@@ -286,6 +307,11 @@ def _measure(scene, viewer, traced, srgb) -> dict:
         "color_fringe_arcmin": fringe if any_through else None,
         "through_pixels": int(through_px.sum()),
         "background_layer": wall.name,
+        **window_measures(scene, viewer, cloaked.through, cloaked.entered, naked.hidden),
     }
     result["verdict"] = m.verdict(result)
+    result["verdict_class"] = m.verdict_class(result["verdict"])
+    blocked = place is not None and place["blocked_fraction"] > 1.0 - m.WORKS_REPLACED
+    result["advice"] = (inside_window_advice(scene, viewer, result["window_deg"]) if blocked
+                        else [])
     return result

@@ -8,13 +8,14 @@ from __future__ import annotations
 
 import cv2
 import numpy as np
+from cloakview.render.frame.metrics import CLASSES
 from cloakview.render.scene.model import Scene, glass_extent
-from cloakview.render.sweeps.sightlines import CLASSES, EYE_HEIGHTS_MM
+from cloakview.render.sweeps.sightlines import EYE_HEIGHTS_MM
 from cloakview.render.sweeps.zone import RADIAL_STEP_MM, Ring, ZoneMap
 
-#: Cell colours (sRGB, our own palette): green, amber, red, grey.
-CLASS_RGB = {"works": (46, 160, 90), "partly": (235, 170, 40), "breaks": (205, 60, 50),
-             "no view": (150, 150, 150)}
+#: Cell colours (sRGB, our own palette): green, amber, violet, red, grey.
+CLASS_RGB = {"works": (46, 160, 90), "partly": (235, 170, 40), "hidden": (130, 80, 200),
+             "breaks": (205, 60, 50), "no view": (150, 150, 150)}
 
 
 def _text(image, text, org, scale=0.45, colour=(30, 30, 30), thickness=1):
@@ -104,8 +105,8 @@ def floor_plan_image(scene: Scene, rows: list[dict], xs, ds, height: float, titl
     note = f"; sideways scale stretched {stretch:.0f}x" if stretch > 1.5 else ""
     _text(image, f"eye height {height:.0f} mm; distance from the front panel to scale{note}",
           (12, 44), 0.42)
-    _legend(image, image.shape[0] - 50, "outline: where the effect works (>= 90 % hidden, "
-            "background shift <= 2 arcmin)")
+    _legend(image, image.shape[0] - 50, "outline: where it works (object's place shows "
+            "background; hidden: a dark patch replaces it)")
     return image
 
 
@@ -146,7 +147,8 @@ def elevation_image(scene: Scene, rows: list[dict], hs, ds, title: str):
     _text(image, title, (12, 22), 0.55)
     _text(image, "eye height [mm] against distance from the front panel, on the axis line "
           "(heights stretched 2x)", (12, 44), 0.42)
-    _legend(image, height_px - 46, "grey: no view of the background through the lenses")
+    _legend(image, height_px - 46, "hidden: a dark patch replaces the object; no view: the "
+            "object is out of sight even without the lenses")
     return image
 
 

@@ -6,6 +6,7 @@ import math
 
 from cloakview.optics.cloak import DESIGN_WAVELENGTHS_NM, CloakDesign, through_window_half_angle_deg
 from cloakview.optics.lenses import ThickLens
+from cloakview.optics.materials import D_LINE_NM
 
 #: Eye distances [mm] at which the through-window is reported.
 WINDOW_EYE_DISTANCES_MM = (300.0, 500.0, 1000.0, 2000.0)
@@ -18,7 +19,7 @@ def _radius(r: float):
 def summarise(design: CloakDesign) -> dict:
     """Everything the design command reports, in mm, g and degrees."""
     system = design.system
-    lenses = []
+    lenses, materials = [], {}
     for placed in system.lenses:
         lens = placed.lens
         cp = placed.cardinal_points()
@@ -37,6 +38,11 @@ def summarise(design: CloakDesign) -> dict:
         if isinstance(lens, ThickLens):
             entry.update(r1_mm=_radius(lens.r1_mm), r2_mm=_radius(lens.r2_mm),
                          material=lens.material.name)
+            glass = lens.material
+            materials[glass.name] = {"n_d": float(glass.index(D_LINE_NM)),
+                                     "v_d": glass.abbe_number(),
+                                     "density_g_cm3": glass.density_g_cm3,
+                                     "source": glass.source}
         else:
             entry.update(material="ideal")
         lenses.append(entry)
@@ -58,6 +64,7 @@ def summarise(design: CloakDesign) -> dict:
             f"{d:g}": through_window_half_angle_deg(design, d) for d in WINDOW_EYE_DISTANCES_MM
         },
         "lenses": lenses,
+        "materials": materials,
     }
 
 
@@ -71,7 +78,11 @@ def table(summary: dict) -> str:
         f"Four-lens cloak: f_outer {summary['f_outer_mm']:g} mm, "
         f"f_inner {summary['f_inner_mm']:g} mm",
         f"Device length (first to last vertex): {summary['length_mm']:.2f} mm; "
-        f"lens mass {summary['total_mass_g'] / 1000:.2f} kg",
+        f"lens mass {summary['total_mass_g']:.0f} g ({summary['total_mass_g'] / 1000:.2f} kg) "
+        "for all four",
+        *(f"Material {name}: n_d {m['n_d']:.4f}, V_d {m['v_d']:.1f}, density "
+          f"{m['density_g_cm3']:.2f} g/cm3 ({m['source']})"
+          for name, m in summary.get("materials", {}).items()),
         f"Spacings between principal planes: outer {summary['outer_spacing_mm']:.3f} mm, "
         f"inner {summary['inner_spacing_mm']:.3f} mm "
         f"(thin-lens rule {summary['thin_lens_inner_spacing_mm']:.3f} mm, "

@@ -54,16 +54,26 @@ def page(data: dict) -> str:
     views = "".join(
         f'<figure><img src="{html.escape(v["image"])}" alt="view from {html.escape(v["name"])}">'
         f'<figcaption><b>{html.escape(v["name"])}</b>, eye at {v["eye_mm"][1]:.0f} mm height, '
-        f'{-v["eye_mm"][2] / 1000:.2f} m in front: {_fmt(v["hidden_fraction"], "{:.0%}")} of '
-        f'the object hidden; {html.escape(v["verdict"])}</figcaption></figure>'
+        f'{-v["eye_mm"][2] / 1000:.2f} m in front: {html.escape(v["verdict"])}'
+        f'</figcaption></figure>'
         for v in data["views"])
     tol = data["tolerance"]
     tol_rows = [[s["label"], _fmt(s["value"], "{:g}"), _fmt(s["yield_alone"], "{:.0%}"),
                  _fmt(tol["for_95_yield"][s["tolerance"]]["largest_tested_with_95_yield"],
                       "{:g}")] for s in tol["sensitivity"]]
-    view_rows = [[v["name"], _fmt(v["hidden_fraction"], "{:.0%}"),
+    view_rows = [[v["name"], _fmt(v["replaced_fraction"], "{:.0%}"),
+                  _fmt(v["blocked_fraction"], "{:.0%}"), _fmt(v["showing_fraction"], "{:.0%}"),
+                  _fmt(v["window_deg"], "{:.2f}"), _fmt(v["object_outer_deg"], "{:.2f}"),
                   _fmt(v["background_ssim"]), _fmt(v["shift_median_arcmin"]),
+                  _fmt(v["color_fringe_arcmin"], "{:.1f}"),
                   _fmt(v["transmittance"], "{:.3f}"), v["verdict"]] for v in data["views"]]
+    advice = "".join(f"<li>{html.escape(line)}</li>" for v in data["views"]
+                     for line in v["advice"])
+    floors = "".join(
+        f'<figure><img src="{html.escape(f["image"])}" alt="floor plan at '
+        f'{f["height_mm"]:.0f} mm"><figcaption>Floor plan, eye height {f["height_mm"]:.0f} mm '
+        f'({html.escape(f["name"])}): green where the effect works.</figcaption></figure>'
+        for f in data["floor_plans"])
     cautions = "".join(f"<li>{html.escape(c)}</li>" for c in data["cautions"])
     assumptions = "".join(f"<li>{html.escape(a)}</li>" for a in data["assumptions"])
     return f"""<!DOCTYPE html>
@@ -97,8 +107,13 @@ Drawing to scale (also as <a href="layout.svg">layout.svg</a> for drafting tools
 
 <h2>3. What visitors see</h2>
 <div class="grid">{views}</div>
-{_table(["visitor", "hidden", "background SSIM", "shift arcmin", "light through", "verdict"],
-        view_rows)}
+<p>Where the object was (as seen without the lenses), the view through them shows background
+("filled"), dark tube or lens mount ("dark"), or the object ("seen"); the three add up to
+100 %. The window is the radius of the patch through which the background is seen; the object
+column is how far its place reaches from that patch's centre (both in degrees at the eye).</p>
+{_table(["visitor", "filled", "dark", "seen", "window deg", "object deg", "background SSIM",
+         "shift arcmin", "fringe arcmin", "light through", "verdict"], view_rows)}
+{f"<p>What would bring the object inside the window:</p><ul>{advice}</ul>" if advice else ""}
 
 <h2>4. Walking past</h2>
 <figure><img src="walk_strip.png" alt="walk-by strip"><figcaption>{len(data["walk"])}
@@ -107,9 +122,8 @@ lenses; the effect works in {sum(1 for w in data["walk"] if w["verdict"].startsw
 of them.</figcaption></figure>
 
 <h2>5. Where visitors can stand</h2>
-<figure><img src="sightlines.png" alt="sight-line map"><figcaption>Floor plan at the axis
-height: green where the effect works ({html.escape(data["works_definition"])}).
-</figcaption></figure>
+<p>The effect works where {html.escape(data["works_definition"])}.</p>
+<div class="grid">{floors}</div>
 <figure><img src="elevation.png" alt="eye heights"><figcaption>Eye height against distance on
 the axis line.</figcaption></figure>
 <p>{html.escape(data["recommendation"])}</p>

@@ -35,6 +35,7 @@ from cloakview.render.scene.model import (
     Settings,
     Viewer,
     glass_extent,
+    opaque_radii_mm,
 )
 from cloakview.render.scene.pictures import read_texture
 
@@ -199,20 +200,6 @@ def _layer(t: KeyReader, folder: Path, source: str, allow_outside: bool, axis_he
     return layer
 
 
-def _opaque_reach_mm(layer: Layer) -> float:
-    """Farthest distance from the axis of any visible pixel of a layer [mm]."""
-    alpha = layer.texture[..., 3]
-    rows, cols = np.nonzero(alpha > 1.0 / 255.0)
-    if rows.size == 0:
-        return 0.0
-    h, w = alpha.shape
-    # Pixel corners farthest out: test both edges of each visible pixel.
-    xs = layer.center_x_mm - layer.width_mm / 2 + np.array([cols, cols + 1]) / w * layer.width_mm
-    ys = layer.center_y_mm + layer.height_mm / 2 - np.array([rows, rows + 1]) / h * \
-        layer.height_mm
-    return float(np.sqrt(np.abs(xs).max(axis=0) ** 2 + np.abs(ys).max(axis=0) ** 2).max())
-
-
 def _check_layer_place(layer: Layer, t: KeyReader, system: LensSystem, housing: Housing):
     for placed in system.lenses:
         lo, hi = glass_extent(placed)
@@ -223,7 +210,7 @@ def _check_layer_place(layer: Layer, t: KeyReader, system: LensSystem, housing: 
         if not housing.panel_z_mm < layer.z_mm < housing.tube_end_mm:
             raise t.error("z_mm", layer.z_mm, f"a hidden object must be inside the device "
                           f"({housing.panel_z_mm:.0f} to {housing.tube_end_mm:.0f} mm)")
-        reach = _opaque_reach_mm(layer)
+        reach = opaque_radii_mm(layer)[1]
         if reach > housing.tube_radius_mm:
             raise t.error("width_mm", layer.width_mm, f"the hidden object reaches "
                           f"{reach:.1f} mm from the axis, beyond the tube radius "

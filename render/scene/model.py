@@ -153,3 +153,22 @@ def glass_extent(placed: PlacedLens) -> tuple[float, float]:
     front = placed.z_mm + float(sag(h, lens.c1))
     back = placed.back_z_mm + float(sag(h, lens.c2))
     return min(placed.z_mm, front), max(placed.back_z_mm, back)
+
+
+def opaque_radii_mm(layer: Layer) -> tuple[float, float]:
+    """Nearest and farthest distance from the axis of any visible pixel of ``layer`` [mm].
+
+    Each visible pixel counts with its whole square (its corner farthest out and its
+    point nearest the axis).
+    """
+    rows, cols = np.nonzero(layer.texture[..., 3] > 1.0 / 255.0)
+    if rows.size == 0:
+        return 0.0, 0.0
+    h, w = layer.texture.shape[:2]
+    x0 = layer.center_x_mm - layer.width_mm / 2 + cols / w * layer.width_mm
+    x1 = x0 + layer.width_mm / w
+    y1 = layer.center_y_mm + layer.height_mm / 2 - rows / h * layer.height_mm
+    y0 = y1 - layer.height_mm / h
+    far = np.hypot(np.maximum(np.abs(x0), np.abs(x1)), np.maximum(np.abs(y0), np.abs(y1)))
+    near = np.hypot(np.clip(0.0, x0, x1), np.clip(0.0, y0, y1))
+    return float(near.min()), float(far.max())

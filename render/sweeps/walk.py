@@ -22,7 +22,7 @@ from cloakview.optics.errors import InputError
 from cloakview.render.files import atomic_write, read_text
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.overlays import caption
-from cloakview.render.frame.views import render_viewer
+from cloakview.render.frame.views import POINT_KEYS, render_viewer
 from cloakview.render.scene.loader import load_scene
 from cloakview.render.scene.model import Scene, Viewer
 
@@ -143,18 +143,18 @@ def render_frame(state, job: dict) -> dict:
     if job["side_by_side"]:
         image = np.concatenate([image, result.images["naked"]], axis=1)
     eye = job["eye"]
-    hidden = "-" if m["hidden_fraction"] is None else f"{m['hidden_fraction']:.0%}"
     shift = m["background_shift_arcmin"]
-    lines = [f"eye x {eye[0]:+.0f} mm, height {eye[1]:.0f} mm, z {eye[2]:.0f} mm   "
-             f"hidden {hidden}   shift "
-             f"{'-' if shift is None else format(shift['median'], '.1f')} arcmin",
+    place = ("no object in view" if m["hidden_fraction"] is None else
+             f"object's place: background {m['replaced_fraction']:.0%}, dark "
+             f"{m['blocked_fraction']:.0%}, object {m['showing_fraction']:.0%}")
+    lines = [f"eye x {eye[0]:+.0f} mm, height {eye[1]:.0f} mm, z {eye[2]:.0f} mm   {place}   "
+             f"shift {'-' if shift is None else format(shift['median'], '.1f')} arcmin",
              m["verdict"] + ("   (left: through lenses, right: lenses removed)"
                              if job["side_by_side"] else "")]
     encoded = iio.imwrite("<bytes>", caption(image, lines), extension=".png")
     return {"frame": job["index"], "eye_x_mm": eye[0], "eye_y_mm": eye[1], "eye_z_mm": eye[2],
-            "hidden_fraction": m["hidden_fraction"], "background_ssim": m["background_ssim"],
-            "shift_median_arcmin": shift and shift["median"],
-            "through_pixels": m["through_pixels"], "verdict": m["verdict"],
+            **{key: m[key] for key in POINT_KEYS},
+            "shift_median_arcmin": shift and shift["median"], "class": m["verdict_class"],
             "png": base64.b64encode(encoded).decode("ascii")}
 
 

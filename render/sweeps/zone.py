@@ -17,10 +17,10 @@ References
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 
 import numpy as np
-from cloakview.optics.materials import D_LINE_NM
 from cloakview.optics.surfaces import Probe
 from cloakview.optics.trace import Rays, trace
 from cloakview.render.scene.model import Scene, glass_extent
@@ -36,13 +36,13 @@ class ZoneMap:
     Attributes
     ----------
     z_mm : ndarray (Z,)
-        Probe-plane positions [mm].
+        Slab centres [mm]; each slab spans ``axial_step_mm``.
     r_mm : ndarray (R,)
         Radial bin centres [mm].
     seen : ndarray of bool (Z, R)
         Crossed by at least one ray reaching an eye.
     glass : ndarray of bool (Z,)
-        Planes that cut a lens.
+        Slabs that hold any glass of a lens.
     fans : list of ndarray
         A few meridional rays per eye for drawing: (K, Z) radius with sign, NaN after
         the ray stopped.
@@ -61,28 +61,23 @@ class ZoneMap:
         return ~self.seen & ~self.glass[:, None]
 
 
-def _fan_targets(hole_radius: float, radial: int, azimuthal: int) -> np.ndarray:
-    r = np.linspace(0.0, hole_radius, radial)
-    a = np.linspace(0.0, 2 * np.pi, azimuthal, endpoint=False)
-    return np.stack([np.outer(np.cos(a), r), np.outer(np.sin(a), r)], axis=-1)  # (A, R, 2)
+def _mark(seen: np.ndarray, lo: np.ndarray, hi: np.ndarray, step: float) -> None:
+    """Mark the radial bins (1-D ``seen``) that a fan of rays (azimuth x radius) covers.
 
-
-def _mark(seen: np.ndarray, radius: np.ndarray, step: float) -> None:
-    """Mark the radial bins (1-D ``seen``) covered by a fan of rays (azimuth x radius).
-
-    The gaps between neighbouring rays of the fan count as covered too.
+    Ray k covers radii ``lo[k]`` to ``hi[k]`` within the slab; the family of rays between
+    two neighbours of the fan covers the span of both (continuity), so that counts too.
     """
     bins = seen.shape[0]
     for axis in (0, 1):
-        a = radius
-        b = np.roll(radius, -1, axis=axis)
+        lo_b = np.roll(lo, -1, axis=axis)
+        hi_b = np.roll(hi, -1, axis=axis)
         if axis == 1:
-            b[:, -1] = a[:, -1]
-        lo = np.fmin(a, b)
-        hi = np.fmax(a, b)
-        ok = ~np.isnan(lo)
-        first = np.clip((lo[ok] / step).astype(int), 0, bins - 1)
-        last = np.clip((hi[ok] / step).astype(int), 0, bins - 1)
+            lo_b[:, -1], hi_b[:, -1] = lo[:, -1], hi[:, -1]
+        first_r = np.fmin(lo, lo_b)
+        last_r = np.fmax(hi, hi_b)
+        ok = ~np.isnan(first_r) & ~np.isnan(last_r)
+        first = np.clip((first_r[ok] / step).astype(int), 0, bins - 1)
+        last = np.clip((last_r[ok] / step).astype(int), 0, bins - 1)
         # Mark [first, last] with a difference array, then a cumulative sum.
         diff = np.zeros(bins + 1, np.int64)
         np.add.at(diff, first, 1)
@@ -90,40 +85,114 @@ def _mark(seen: np.ndarray, radius: np.ndarray, step: float) -> None:
         seen |= np.cumsum(diff[:-1]) > 0
 
 
-def cloaked_zone(scene: Scene, eyes_room: np.ndarray, wavelength_nm: float = D_LINE_NM,
+def _fan_rays(eye, radii: np.ndarray, azimuths: np.ndarray, panel_z: float,
+              wavelength_nm: float) -> Rays:
+    """Rays from ``eye`` (device frame) aimed at points (radius, azimuth) of the panel plane."""
+    points = np.stack([radii * np.cos(azimuths), radii * np.sin(azimuths),
+                       np.full(radii.shape, panel_z)], axis=-1).reshape(-1, 3)
+    directions = points - eye
+    return Rays.from_vectors(np.broadcast_to(eye, directions.shape), directions, wavelength_nm)
+
+
+def _reach(scene: Scene, rays: Rays, edges: np.ndarray) -> np.ndarray:
+    """How many slab edges each ray crosses before it stops (all of them if it passes)."""
+    result = trace(rays, scene.system.surfaces, scene.housing)
+    stop = np.where(result.passed, np.inf, result.z)
+    stop[~result.entered] = -np.inf
+    return np.searchsorted(edges, stop)
+
+
+def _edge_radii(scene: Scene, eye, radii: np.ndarray, azimuths: np.ndarray, edges,
+                wavelength_nm: float, iterations: int = 40) -> list[np.ndarray]:
+    """Per azimuth, the fan's radii plus the radii where a ray stops reaching a slab edge.
+
+    Wherever two neighbouring rays of the fan cross different numbers of slab edges (one
+    clipped by the panel hole, a lens rim or the tube, the other not), the boundary
+    between them is found by bisection, and the rays on both sides of it join the fan:
+    the ray grazing an aperture's edge is the one that reaches farthest out.
+    """
+    panel = scene.housing.panel_z_mm
+    grid_r = np.broadcast_to(radii, (len(azimuths), len(radii)))
+    grid_a = np.broadcast_to(azimuths[:, None], grid_r.shape)
+    reach = _reach(scene, _fan_rays(eye, grid_r, grid_a, panel, wavelength_nm),
+                   edges).reshape(grid_r.shape)
+    rows, cols = np.nonzero(reach[:, :-1] != reach[:, 1:])
+    lo, hi = radii[cols].copy(), radii[cols + 1].copy()
+    angle, inner = azimuths[rows], reach[rows, cols]
+    for _ in range(iterations):
+        mid = 0.5 * (lo + hi)
+        same = _reach(scene, _fan_rays(eye, mid, angle, panel, wavelength_nm), edges) == inner
+        lo, hi = np.where(same, mid, lo), np.where(same, hi, mid)
+    per_azimuth = []
+    for a in range(len(azimuths)):
+        pick = rows == a
+        per_azimuth.append(np.unique(np.concatenate([radii, lo[pick], hi[pick]])))
+    return per_azimuth
+
+
+def cloaked_zone(scene: Scene, eyes_room: np.ndarray, wavelengths_nm=None,
                  radial: int = 161, azimuthal: int = 48,
                  axial_step_mm: float = AXIAL_STEP_MM) -> ZoneMap:
-    """Trace fans from every eye point (room frame, mm) and map the hidden interior."""
+    """Trace fans from every eye point (room frame, mm) and map the hidden interior.
+
+    A point is seen if a ray of any of ``wavelengths_nm`` (default the scene's) crosses
+    it: colours bend differently in real glass, and each is seen.
+
+    The interior is cut into slabs ``axial_step_mm`` long; a slab counts as seen at a
+    radius if any ray crosses that radius anywhere inside it: each ray covers the
+    radii from its closest approach to the axis within the slab to the larger of its
+    radii where it enters and leaves it (or where it stops, on the tube wall), and
+    fans include the rays that graze every aperture edge (:func:`_edge_radii`).
+    """
     housing = scene.housing
-    z = np.arange(housing.panel_z_mm + axial_step_mm / 2, housing.tube_end_mm, axial_step_mm)
+    edges = np.arange(housing.panel_z_mm, housing.tube_end_mm + axial_step_mm / 2,
+                      axial_step_mm)
+    z = 0.5 * (edges[:-1] + edges[1:])
     r = np.arange(RADIAL_STEP_MM / 2, housing.tube_radius_mm, RADIAL_STEP_MM)
     seen = np.zeros((len(z), len(r)), bool)
     glass = np.zeros(len(z), bool)
     for placed in scene.system.lenses:
         lo, hi = glass_extent(placed)
-        glass |= (z >= lo) & (z <= hi)
-    probes = [Probe(float(zz), f"z{i}") for i, zz in enumerate(z)]
-    targets = _fan_targets(housing.hole_radius_mm * 0.999, radial, azimuthal)
+        glass |= (edges[1:] >= lo) & (edges[:-1] <= hi)
+    probes = [Probe(float(zz), f"z{i}") for i, zz in enumerate(edges)]
+    # The fan reaches just past the hole, so its edge is among the bisected boundaries.
+    radii = np.append(np.linspace(0.0, housing.hole_radius_mm * 0.999, radial),
+                      housing.hole_radius_mm * 1.02)
+    azimuths = np.linspace(0.0, 2 * np.pi, azimuthal, endpoint=False)
     fans = []
-    for eye_room in np.atleast_2d(eyes_room):
+    wavelengths = scene.settings.wavelengths_nm if wavelengths_nm is None else wavelengths_nm
+    for eye_room, wavelength_nm in itertools.product(np.atleast_2d(eyes_room), wavelengths):
         eye = scene.placement.to_device(eye_room)
-        points = np.concatenate([targets, np.full(targets.shape[:2] + (1,),
-                                                  housing.panel_z_mm)], axis=-1)
-        directions = points.reshape(-1, 3) - eye
-        rays = Rays.from_vectors(np.broadcast_to(eye, directions.shape), directions,
-                                 wavelength_nm)
-        result = trace(rays, [*scene.system.surfaces, *probes], housing)
-        shape = targets.shape[:2]
+        per_azimuth = _edge_radii(scene, eye, radii, azimuths, edges, wavelength_nm)
+        width = max(len(p) for p in per_azimuth)
+        fan_r = np.stack([np.pad(p, (0, width - len(p)), mode="edge") for p in per_azimuth])
+        fan_a = np.broadcast_to(azimuths[:, None], fan_r.shape)
+        result = trace(_fan_rays(eye, fan_r, fan_a, housing.panel_z_mm, wavelength_nm),
+                       [*scene.system.surfaces, *probes], housing)
+        shape = fan_r.shape
+        stop_z = np.where(result.passed, np.inf, result.z).reshape(shape)
+        stop_x, stop_y = result.x.reshape(shape), result.y.reshape(shape)
+        entered = result.entered.reshape(shape)
+        xs = [result.crossings[p.name].x.reshape(shape) for p in probes]
+        ys = [result.crossings[p.name].y.reshape(shape) for p in probes]
         meridional = []
-        for i, probe in enumerate(probes):
-            crossing = result.crossings[probe.name]
-            radius = np.hypot(crossing.x, crossing.y).reshape(shape)
-            radius[~result.entered.reshape(shape)] = np.nan
-            _mark(seen[i], radius, RADIAL_STEP_MM)
-            # Signed radius of the rays in the fan's first and opposite azimuths, to draw.
-            pick = np.concatenate([crossing.x.reshape(shape)[0, ::10],
-                                   crossing.x.reshape(shape)[azimuthal // 2, ::10]])
-            meridional.append(pick)
+        for i in range(len(z)):
+            ax, ay = xs[i], ys[i]
+            inside = (stop_z > edges[i]) & (stop_z < edges[i + 1])
+            bx = np.where(np.isnan(xs[i + 1]) & inside, stop_x, xs[i + 1])
+            by = np.where(np.isnan(ys[i + 1]) & inside, stop_y, ys[i + 1])
+            dx, dy = bx - ax, by - ay
+            with np.errstate(invalid="ignore", divide="ignore"):
+                s = np.clip(-(ax * dx + ay * dy) / (dx * dx + dy * dy), 0.0, 1.0)
+            s = np.where(np.isfinite(s), s, 0.0)
+            hi = np.fmax(np.hypot(ax, ay), np.hypot(bx, by))
+            lo = np.hypot(ax + s * dx, ay + s * dy)
+            lo[~entered | np.isnan(ax)] = np.nan
+            hi[~entered | np.isnan(ax)] = np.nan
+            _mark(seen[i], lo, hi, RADIAL_STEP_MM)
+            # Signed radius of a few rays in the fan's first and opposite azimuths, to draw.
+            centre = 0.5 * (ax + xs[i + 1])
+            meridional.append(np.concatenate([centre[0, ::10], centre[azimuthal // 2, ::10]]))
         fans.append(np.array(meridional).T)
     return ZoneMap(z, r, seen, glass, fans, axial_step_mm)
 
@@ -185,6 +254,7 @@ def largest_rings(zone: ZoneMap, scene: Scene) -> list[Ring]:
             continue
         r0, r1, c0, c1 = found
         half = zone.axial_step_mm / 2
-        rings.append(Ring(name, c0 * RADIAL_STEP_MM, c1 * RADIAL_STEP_MM,
+        rings.append(Ring(name, c0 * RADIAL_STEP_MM,
+                          min(c1 * RADIAL_STEP_MM, scene.housing.tube_radius_mm),
                           float(zone.z_mm[rows[r0]] - half), float(zone.z_mm[rows[r1 - 1]] + half)))
     return rings
