@@ -73,3 +73,15 @@ def test_console_script_has_no_traceback():
                            "--f-inner", "20"], capture_output=True, text=True)
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr and proc.stdout == ""
+
+
+def test_table_states_mass_in_the_units_of_its_column_and_the_material_source(capsys):
+    assert main(["design", "--f-outer", "200", "--f-inner", "75", "--material", "1.52/60"]) == 0
+    text = capsys.readouterr().out
+    out = _json(capsys, "--f-outer", "200", "--f-inner", "75", "--material", "1.52/60")
+    grams = out["total_mass_g"]
+    assert f"lens mass {grams:.0f} g ({grams / 1000:.2f} kg)" in text
+    assert "mass g" in text  # the per-lens column is in grams too
+    # Gladstone and Dale (1863): the density is an estimate from n_d, and the table says so.
+    assert "estimated from n_d" in text and "ND/VD/DENSITY" in text
+

@@ -110,3 +110,13 @@ def test_binocular_verdict_when_each_eye_works_alone():
     hidden = {"verdict_class": "hidden", "verdict": "hidden, but a dark ring shows"}
     one = both_eyes.binocular_verdict(works, hidden, 0.9)
     assert one.startswith("works for the left eye only") and "close the right eye" in one
+
+
+def test_an_object_in_view_is_named_before_a_missing_background():
+    # A walk-by frame that sees the object but no background through the lenses must say
+    # that the object shows, not only that the background is missing.
+    from cloakview.render.frame.metrics import verdict
+    metrics = {"hidden_fraction": 0.0, "showing_fraction": 1.0, "object_seen_ratio": 1.0,
+               "replaced_fraction": 0.0, "blocked_fraction": 0.0, "window_deg": 0.0,
+               "background_shift_arcmin": None, "color_fringe_arcmin": None}
+    assert verdict(metrics).startswith("breaks: the object shows")

@@ -39,7 +39,8 @@ def _fmt(value, pattern="{:.3f}"):
 
 
 def _print_table(renders, out: Path) -> None:
-    print(f"{'viewer':<16}{'filled':>7}{'dark':>6}{'seen':>6}{'window':>8}{'object':>8}"
+    print(f"{'viewer':<16}{'filled':>7}{'dark':>6}{'seen':>6}{'window':>8}{'on panel':>9}"
+          f"{'object':>8}"
           f"{'SSIM':>7}{'shift':>7}{'fringe':>7}{'trans':>7}  verdict")
     for r in renders:
         mt = r.metrics
@@ -48,16 +49,18 @@ def _print_table(renders, out: Path) -> None:
               f"{_fmt(mt['blocked_fraction'], '{:.0%}'):>6}"
               f"{_fmt(mt['showing_fraction'], '{:.0%}'):>6}"
               f"{_fmt(mt['window_deg'], '{:.2f}'):>8}"
+              f"{_fmt(mt['window_panel_mm'], '{:.0f}'):>9}"
               f"{_fmt(mt['object_outer_deg'], '{:.2f}'):>8}"
               f"{_fmt(mt['background_ssim'], '{:.2f}'):>7}"
               f"{_fmt(shift and shift['median'], '{:.1f}'):>7}"
               f"{_fmt(mt['color_fringe_arcmin'], '{:.1f}'):>7}"
               f"{_fmt(mt['transmittance'], '{:.2f}'):>7}"
               f"  {mt['verdict']}")
-    print("Where the object was (without lenses), the view through them shows: filled = "
-          "background, dark = tube or\nlens mount, seen = the object. window = radius of the "
-          "through-window, object = the object's\nfarthest point from its centre [deg]. "
-          "SSIM = background likeness; shift, fringe = median\nbackground displacement and "
+    print("Where the object was (as seen without lenses), the view through them shows: "
+          "filled = background,\ndark = tube or lens mount, seen = the object. window = "
+          "radius of the through-window [deg];\non panel = its diameter on the front panel "
+          "[mm]; object = how far the object's place reaches\nfrom the window's centre [deg]. "
+          "SSIM = background likeness; shift, fringe = median background\ndisplacement and "
           "blue-red spread [arcmin]; trans = light through the lenses.")
     print(WORKS_DEFINITION[0].upper() + WORKS_DEFINITION[1:] + ".")
     for r in renders:

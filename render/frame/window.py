@@ -29,6 +29,9 @@ import numpy as np
 from cloakview.render.frame.camera import device_directions, pixel_solid_angles
 from cloakview.render.scene.model import Scene, Viewer, glass_extent, opaque_radii_mm
 
+#: Eyes farther than this from the axis [mm] get advice to move, not to resize (our choice).
+OFF_AXIS_MM = 5.0
+
 
 def window_measures(scene: Scene, viewer: Viewer, through: np.ndarray, entered: np.ndarray,
                     naked_object: np.ndarray) -> dict:
@@ -89,9 +92,15 @@ def inside_window_advice(scene: Scene, viewer: Viewer, window_deg: float) -> lis
     the far lens's radius. For each hidden layer, its farthest visible point r sets what
     is needed: a smaller object, a longer viewing distance, an object nearer the inner
     lenses (if the first gap allows it), or proportionally larger lenses. These are
-    estimates for an eye on the axis at ``viewer``'s distance; a render is the check.
+    estimates for an eye on the axis at ``viewer``'s distance; a render is the check. An
+    eye more than :data:`OFF_AXIS_MM` off the axis is told to move nearer it instead.
     """
     eye = scene.placement.to_device(np.asarray(viewer.eye_mm, float))
+    off_axis = math.hypot(eye[0], eye[1])
+    if off_axis > OFF_AXIS_MM:
+        return [f"'{viewer.name}' looks in from {off_axis:.0f} mm off the axis, where the "
+                "window narrows and moves off the object's place: bring the eye nearer the "
+                "axis (an eye-port or floor mark), then size the object for that viewer."]
     d = scene.system.front_z_mm - eye[2]
     length = scene.system.length_mm
     far = scene.system.surfaces[-1].semi_aperture_mm
