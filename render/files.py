@@ -16,6 +16,7 @@ from importlib import metadata
 from pathlib import Path
 
 import imageio.v3 as iio
+import matplotlib
 import numpy as np
 from cloakview.optics.errors import InputError
 
@@ -97,9 +98,35 @@ def atomic_write(path: Path, write) -> None:
         raise
 
 
+def png_bytes(image_uint8: np.ndarray) -> bytes:
+    """An 8-bit image as PNG bytes."""
+    return iio.imwrite("<bytes>", image_uint8, extension=".png")
+
+
 def write_png(path: Path, image_uint8: np.ndarray) -> None:
     """Write an 8-bit image as PNG via a temporary file and a rename."""
     atomic_write(Path(path), lambda temp: iio.imwrite(temp, image_uint8, extension=".png"))
+
+
+def figure_bytes(figure, fmt: str) -> bytes:
+    """A matplotlib figure as ``png`` (150 dpi) or ``svg`` bytes; SVG text stays text."""
+    buffer = io.BytesIO()
+    with matplotlib.rc_context({"svg.fonttype": "none"}):
+        figure.savefig(buffer, format=fmt, dpi=150)
+    return buffer.getvalue()
+
+
+def write_figure(path_png: Path, figure) -> list[Path]:
+    """Write a matplotlib figure as PNG at ``path_png`` and as SVG beside it (vector, for print).
+
+    Returns both paths.
+    """
+    written = []
+    for path in (Path(path_png), Path(path_png).with_suffix(".svg")):
+        data = figure_bytes(figure, path.suffix[1:])
+        atomic_write(path, lambda temp, data=data: Path(temp).write_bytes(data))
+        written.append(path)
+    return written
 
 
 def write_json(path: Path, data) -> None:

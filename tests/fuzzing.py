@@ -56,7 +56,7 @@ OPTIONS = {
     "tolerance": ["--axial", "--decenter", "--tilt", "--focal", "--builds", "--seed", "--size",
                   "--workers"],
     "report": ["--inventory", "--outer", "--inner", "--axial", "--builds", "--heights",
-               "--lateral-range"],
+               "--lateral-range", "--author", "--paper", "--currency"],
 }
 #: Small, fast defaults per command (the fuzzer mutates from there).
 BASE = {
@@ -74,7 +74,7 @@ BASE = {
     "report": ["--builds", "1", "--axial", "0.5", "--decenter", "0", "--tilt", "0",
                "--focal", "0", "--heights", "1150", "--lateral-range", "0:10:10",
                "--distance-range", "600:600:100", "--height-range", "1150:1150:25",
-               "--size", "16x16", "--workers", "1"],
+               "--size", "16x16", "--workers", "1", "--no-pdf"],
 }
 _PROGRESS = re.compile(r"^[\w -]+ \[[#.]+\] \d+/\d+ ")
 OUTCOMES = ("ok", "refused", "traceback", "multi-line", "wrote-on-error", "escaped")

@@ -22,7 +22,7 @@ from cloakview.render import outfolder
 from cloakview.render.files import atomic_write, write_json, write_png
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.outputs import run_record, write_summary, write_viewer
-from cloakview.render.frame.overlays import caption
+from cloakview.render.frame.overlays import caption, inset_view, view_caption
 from cloakview.render.frame.views import VIEW_NAMES, ViewerRender, render_viewer
 from cloakview.render.progress import Progress
 from cloakview.render.scene.loader import load_scene
@@ -141,7 +141,7 @@ def render(scene: Scene | str | Path, *, viewer: str | None = None, eye_mm=None,
            look_at_mm=None, size_px: tuple[int, int] | None = None,
            views=VIEW_NAMES, supersample: int | None = None, ideal: bool | None = None,
            allow_outside_paths: bool = False, out: str | Path | None = None,
-           progress: bool = False) -> list[ViewerRender]:
+           captions: bool = False, progress: bool = False) -> list[ViewerRender]:
     """Render what visitors see through the exhibit, with metrics.
 
     Parameters
@@ -164,6 +164,9 @@ def render(scene: Scene | str | Path, *, viewer: str | None = None, eye_mm=None,
     out : path, optional
         Folder for one sub-folder of pictures and metrics per viewer, ``metrics.json``,
         ``metrics.csv`` and ``run.json``.
+    captions : bool
+        Put a caption strip (viewer, eye point, verdict) under every picture and, where the
+        viewing hole looks small, an enlarged inset of it with its scale.
     progress : bool
         Show a progress bar on stderr.
 
@@ -184,6 +187,10 @@ def render(scene: Scene | str | Path, *, viewer: str | None = None, eye_mm=None,
     bar = Progress(3 * len(chosen), "rendering", enabled=progress)
     renders = [render_viewer(scene, v, pyramids, tuple(views), supersample, bar)
                for v in chosen]
+    if captions:
+        for r in renders:
+            r.images = {name: view_caption(inset_view(image, r), r.viewer, r.metrics)
+                        for name, image in r.images.items()}
     if out is not None:
         options = {"views": list(views), "viewers": [v.name for v in chosen],
                    "ideal": scene.settings.ideal,

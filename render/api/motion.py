@@ -18,7 +18,13 @@ from pathlib import Path
 import numpy as np
 from cloakview.optics.errors import InputError
 from cloakview.render import outfolder
-from cloakview.render.files import atomic_write, run_record, write_csv, write_json, write_png
+from cloakview.render.files import (
+    atomic_write,
+    run_record,
+    write_csv,
+    write_figure,
+    write_json,
+)
 from cloakview.render.frame.metrics import WORKS_DEFINITION
 from cloakview.render.progress import Progress
 from cloakview.render.proposal import charts
@@ -125,6 +131,9 @@ def walk(scene_path: str | Path, *, out: str | Path, path: str | Path = "straigh
                                 scheduler=scheduler_from(scheduler))
         wk.write_videos(frame_files, out / "walk.mp4", out / "walk.gif", fps)
         write_csv(out / "walk.csv", rows)
+        write_figure(out / "walk_metrics.png", charts.walk_metrics(
+            rows, f"{scene.title}: walk '{path}' at {distance_mm / 1000:.2f} m, what fills "
+            "the object's place"))
         summary = {"frames": len(rows), "fps": fps,
                    "works_frames": sum(r["verdict"].startswith("works") for r in rows),
                    "reused": reused,
@@ -195,10 +204,11 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=sl.DEFAULT_HE
     rows = [*(r for subset in by_height.values() for r in subset), *side_rows]
     with outfolder.output_folder(out, scene.sources) as out:
         for name, h in named.items():
-            write_png(out / f"floor_{name.replace(' ', '')}.png", charts.floor_plan_image(
-                scene, by_height[name], xs, ds, h, f"{scene.title}: where it works ({name})"))
-        write_png(out / "elevation.png", charts.elevation_image(
-            scene, side_rows, hs, ds, f"{scene.title}: eye heights"))
+            write_figure(out / f"floor_{name.replace(' ', '')}.png", charts.floor_plan(
+                scene, by_height[name], xs, ds, h, f"{scene.title}: where it works ({name})",
+                found["spot"]))
+        write_figure(out / "elevation.png", charts.elevation(
+            scene, side_rows, hs, ds, f"{scene.title}: eye heights", found["spot"]))
         write_csv(out / "sightlines.csv", rows)
         result = {"definition": WORKS_DEFINITION, "heights_mm": named,
                   "works_counts": {name: sum(r["class"] == "works" for r in subset)
@@ -281,7 +291,7 @@ def zone(scene_path: str | Path, *, viewer: str | None = None,
               "seconds": round(time.perf_counter() - started, 2)}
     if out is not None:
         with outfolder.output_folder(out, scene.sources) as folder:
-            write_png(folder / "zone.png", charts.zone_image(
+            write_figure(folder / "zone.png", charts.zone_drawing(
                 zone_map, scene, rings, f"{scene.title}: cloaked zone for '{base.name}'"))
             write_json(folder / "zone.json", result)
             run_record(folder, "zone", {"scene": str(scene_path), "viewer": base.name,

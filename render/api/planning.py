@@ -10,8 +10,8 @@ import numpy as np
 from cloakview.optics.errors import InputError
 from cloakview.render import outfolder
 from cloakview.render.api.motion import check_viewing_box, scheduler_from
-from cloakview.render.files import run_record, write_csv, write_json, write_png
-from cloakview.render.frame.metrics import WORKS_DEFINITION
+from cloakview.render.files import run_record, write_csv, write_figure, write_json, write_png
+from cloakview.render.frame.metrics import WORKS_DEFINITION, percent
 from cloakview.render.frame.views import render_viewer
 from cloakview.render.planning import search
 from cloakview.render.planning import tolerance as tl
@@ -46,8 +46,8 @@ def _limit(key: str, value, low: float) -> float:
 def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | None = None,
            budget: float | None = None, distance_mm: float = 1500.0,
            viewing_box_mm=(0.0, 0.0, 0.0), min_object_mm=(0.0, 0.0),
-           render_in: str | Path | None = None, workers: int | None = None,
-           fresh: bool = False, scheduler: str | None = None,
+           render_in: str | Path | None = None, currency: str | None = None,
+           workers: int | None = None, fresh: bool = False, scheduler: str | None = None,
            progress: bool = False) -> dict:
     """Rank four-lens designs made from a lens inventory under the planner's constraints.
 
@@ -65,6 +65,8 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
         Size of the viewing zone round the eye point [mm] (zeros: a point).
     min_object_mm : (height, length)
         Smallest object to hide [mm].
+    currency : str, optional
+        Currency code of the inventory's prices, for the Pareto chart's axis.
     render_in : path, optional
         A scene file: render the best design in it (its layers and first viewer) as
         ``top_design.png`` and ``top_design_vanish.png``.
@@ -128,7 +130,7 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
         write_csv(folder / "designs.csv", rows, DESIGN_COLUMNS)
         write_json(folder / "designs.json", summary)
         write_csv(folder / "pareto.csv", [r for r in feasible if r["pareto"]], DESIGN_COLUMNS)
-        write_png(folder / "pareto.png", charts.pareto_image(rows))
+        write_figure(folder / "pareto.png", charts.pareto(rows, currency))
         if top is not None:
             write_png(folder / "top_design.png", top.images["cloaked"])
             write_png(folder / "top_design_vanish.png", top.images["vanish"])
@@ -204,8 +206,10 @@ def tolerance(scene_path: str | Path, *, out: str | Path, axial_mm: float = 1.0,
     with outfolder.output_folder(out, scene.sources) as folder:
         write_json(folder / "tolerance.json", summary)
         write_csv(folder / "builds.csv", rows)
-        write_png(folder / "histograms.png", charts.histogram_image(
-            rows, f"{builds} builds: yield {summary['yield']:.0%}"))
+        low, high = summary["yield_interval_95"]
+        write_figure(folder / "histograms.png", charts.tolerance_histograms(
+            rows, f"{scene.title}: {builds} builds, yield {percent(summary['yield'])} (95 % "
+            f"interval {percent(low)} to {percent(high)})"))
         run_record(folder, "tolerance", {"scene": str(scene_path), **dataclasses.asdict(tol),
                                          "builds": builds, "seed": seed,
                                          "size_px": list(size_px)}, started)

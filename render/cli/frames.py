@@ -90,7 +90,8 @@ def _render(args) -> int:
         else None, look_at_mm=opt.point(args.look_at, "--look-at") if args.look_at else None,
         size_px=opt.size(args.size) if args.size else None, views=_views(args.views),
         supersample=args.supersample, ideal=True if args.ideal else None,
-        allow_outside_paths=args.allow_outside_paths, out=args.out, progress=not args.json)
+        allow_outside_paths=args.allow_outside_paths, out=args.out, captions=args.captions,
+        progress=not args.json)
     if args.json:
         print(json.dumps([r.metrics for r in renders], indent=2))
     else:
@@ -179,6 +180,8 @@ def add_commands(commands) -> None:
                    "(needs --eye; default: the first viewer's look-at point)")
     r.add_argument("--views", metavar="LIST", help=f"comma-separated views from "
                    f"{', '.join(VIEW_NAMES)} (default: all)")
+    r.add_argument("--captions", action="store_true", help="caption every picture (viewer, "
+                   "eye point, verdict) and inset an enlarged view of a small viewing hole")
     r.add_argument("--size", metavar="WxH", help="image size in pixels, like 1280x720 "
                    "(default: each viewer's)")
     r.add_argument("--supersample", type=int, choices=range(1, 9), metavar="N",

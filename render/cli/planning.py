@@ -30,7 +30,7 @@ def _choose(args) -> int:
         distance_mm=args.distance,
         viewing_box_mm=opt.box(args.viewing_box, "--viewing-box"),
         min_object_mm=_min_object(args.min_object), render_in=args.render_in,
-        workers=args.workers, fresh=args.fresh, scheduler=args.scheduler,
+        currency=args.currency, workers=args.workers, fresh=args.fresh, scheduler=args.scheduler,
         progress=not args.json)
     feasible = [r for r in result["designs"] if r["reason"] is None]
     shown = feasible[:args.top]

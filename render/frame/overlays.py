@@ -26,14 +26,24 @@ def difference_image(cloaked_srgb, reference_srgb, inside_hole) -> np.ndarray:
                         "different")
 
 
+def _fit_scale(text: str, scale: float, width_px: int) -> float:
+    """The largest font scale up to ``scale`` at which ``text`` fits in ``width_px``.
+
+    OpenCV's text width is not proportional to the scale at small sizes, so shrink until
+    the measured width fits.
+    """
+    while scale > 0.2 and cv2.getTextSize(text, cv2.FONT_HERSHEY_SIMPLEX, scale,
+                                          1)[0][0] > width_px:
+        scale *= 0.95
+    return scale
+
+
 def with_legend(image: np.ndarray, text: str) -> np.ndarray:
     """``image`` with a one-line legend strip below it."""
     h, w = image.shape[:2]
     strip = max(14, h // 18)
     out = np.concatenate([image, np.full((strip, w, 3), 24, np.uint8)], axis=0)
-    scale = strip / 30.0
-    width = cv2.getTextSize(text, cv2.FONT_HERSHEY_SIMPLEX, scale, 1)[0][0]
-    scale *= min(1.0, (w - 8) / width)  # shrink to fit narrow images
+    scale = _fit_scale(text, strip / 30.0, w - 8)
     cv2.putText(out, text, (4, h + int(strip * 0.72)), cv2.FONT_HERSHEY_SIMPLEX, scale,
                 (235, 235, 235), 1, cv2.LINE_AA)
     return out
@@ -75,6 +85,56 @@ def corner_label(image: np.ndarray, text: str) -> np.ndarray:
     return out
 
 
+def with_inset(image: np.ndarray, focus: np.ndarray, deg_per_px: float,
+               small: float = 0.25) -> np.ndarray:
+    """``image`` with an enlarged inset of ``focus`` (a mask) when it looks small.
+
+    ``focus`` is the through-window (or the viewing hole when no background is seen);
+    when it spans less than ``small`` of the frame's height, a square around it is
+    enlarged into the top right corner, framed, with a scale bar in degrees at the eye
+    (``deg_per_px``: the picture's angular pixel size). Otherwise ``image`` is returned.
+    """
+    rows, cols = np.nonzero(focus >= 0.5)
+    h, w = image.shape[:2]
+    if rows.size == 0 or (rows.max() - rows.min() + 1) >= small * h:
+        return image
+    size = int(max(rows.max() - rows.min(), cols.max() - cols.min()) * 1.6) + 4
+    cy, cx = (rows.max() + rows.min()) // 2, (cols.max() + cols.min()) // 2
+    y0 = int(np.clip(cy - size // 2, 0, max(h - size, 0)))
+    x0 = int(np.clip(cx - size // 2, 0, max(w - size, 0)))
+    crop = image[y0:y0 + size, x0:x0 + size]
+    side = int(0.55 * min(h, w))
+    zoom = side / crop.shape[0]
+    inset = cv2.resize(crop, (side, side), interpolation=cv2.INTER_NEAREST)
+    out = image.copy()
+    x1, y1 = w - side - 6, 6
+    out[y1:y1 + side, x1:x1 + side] = inset
+    cv2.rectangle(out, (x1 - 1, y1 - 1), (x1 + side, y1 + side), (255, 255, 255), 2)
+    span_deg = crop.shape[0] * deg_per_px
+    bar_deg = float(next(v for v in (0.05, 0.1, 0.2, 0.25, 0.5, 1.0, 2.0, 5.0, 10.0)
+                         if v >= span_deg / 4 or v == 10.0))
+    bar = bar_deg / deg_per_px * zoom
+    yb, xb = y1 + side - 12, x1 + 10
+    cv2.rectangle(out, (x1 + 2, yb - 20), (x1 + 2 + int(bar) + 150, yb + 6), (28, 28, 28), -1)
+    cv2.line(out, (xb, yb), (xb + int(bar), yb), (255, 255, 255), 2)
+    cv2.putText(out, f"{bar_deg:g} deg at the eye, x{zoom:.1f}", (xb, yb - 6),
+                cv2.FONT_HERSHEY_SIMPLEX, 0.4, (255, 255, 255), 1, cv2.LINE_AA)
+    return out
+
+
+def inset_view(image: np.ndarray, render) -> np.ndarray:
+    """:func:`with_inset` on a render's through-window (or its viewing hole if none)."""
+    focus = render.through if (render.through >= 0.5).any() else render.entered
+    return with_inset(image, focus, render.viewer.fov_deg / render.viewer.width_px)
+
+
+def view_caption(image: np.ndarray, viewer, metrics: dict) -> np.ndarray:
+    """``image`` captioned with the viewer, its eye point [mm, room frame] and the verdict."""
+    x, y, z = viewer.eye_mm
+    return caption(image, [f"{viewer.name}: eye at x {x:+.0f}, height {y:.0f}, z {z:.0f} mm",
+                           metrics["verdict"]])
+
+
 def caption(image: np.ndarray, lines: list[str]) -> np.ndarray:
     """``image`` with a dark strip of text ``lines`` below it, shrunk to fit the width."""
     h, w = image.shape[:2]
@@ -82,8 +142,7 @@ def caption(image: np.ndarray, lines: list[str]) -> np.ndarray:
     rows += (h + rows) % 2  # an even total height, as video encoders want
     strip = np.full((rows, w, 3), 28, np.uint8)
     for i, text in enumerate(lines):
-        scale = 0.45 * min(1.0, (w - 10) / max(1, cv2.getTextSize(
-            text, cv2.FONT_HERSHEY_SIMPLEX, 0.45, 1)[0][0]))
+        scale = _fit_scale(text, 0.45, w - 12)
         cv2.putText(strip, text, (6, 20 + 22 * i), cv2.FONT_HERSHEY_SIMPLEX, scale,
                     (235, 235, 235), 1, cv2.LINE_AA)
     return np.concatenate([image, strip], axis=0)

@@ -45,7 +45,8 @@ class ViewerRender:
     """Images (8-bit sRGB) and metrics of one viewer.
 
     ``through`` is the share of each pixel's rays (H, W) that pass the whole device in
-    the cloaked view: the through-window as a mask.
+    the cloaked view (the through-window as a mask); ``entered`` the share that enter the
+    viewing hole (where the hole is in the picture).
     """
 
     viewer: Viewer
@@ -53,6 +54,7 @@ class ViewerRender:
     metrics: dict
     seconds: float
     through: np.ndarray
+    entered: np.ndarray
 
 
 #: Rays per band: frames are traced and composited in bands of rows of about this many
@@ -268,7 +270,7 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
                                                  traced["cloaked"].replaced,
                                                  traced["naked"].hidden)
     return ViewerRender(viewer, images, metrics, time.perf_counter() - start,
-                        traced["cloaked"].through)
+                        traced["cloaked"].through, traced["cloaked"].entered)
 
 
 def _measure(scene, viewer, traced, srgb) -> dict:

@@ -19,7 +19,7 @@ import imageio.v2 as iio2
 import imageio.v3 as iio
 import numpy as np
 from cloakview.optics.errors import InputError
-from cloakview.render.files import atomic_write, read_text
+from cloakview.render.files import atomic_write, png_bytes, read_text
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.overlays import caption
 from cloakview.render.frame.views import POINT_KEYS, render_viewer
@@ -151,7 +151,7 @@ def render_frame(state, job: dict) -> dict:
              f"shift {'-' if shift is None else format(shift['median'], '.1f')} arcmin",
              m["verdict"] + ("   (left: through lenses, right: lenses removed)"
                              if job["side_by_side"] else "")]
-    encoded = iio.imwrite("<bytes>", caption(image, lines), extension=".png")
+    encoded = png_bytes(caption(image, lines))
     return {"frame": job["index"], "eye_x_mm": eye[0], "eye_y_mm": eye[1], "eye_z_mm": eye[2],
             **{key: m[key] for key in POINT_KEYS},
             "shift_median_arcmin": shift and shift["median"], "class": m["verdict_class"],
