@@ -1,4 +1,4 @@
-"""The proposal report: one self-contained page, its PDF, the drawing in mm, numbers from the JSON."""
+"""The proposal report: a self-contained page, its PDF, the drawing in mm, numbers from JSON."""
 
 import json
 import re

@@ -193,9 +193,9 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
         bar = Progress(8, "report", enabled=progress)
         pictures = {}
         design = summarise(scene.design)
-        svg = layout_svg(design, scene)
-        write_text(out / "layout.svg", svg)
-        pictures["layout"] = ("image/svg+xml", svg.encode("utf-8"))
+        write_text(out / "layout.svg", layout_svg(design, scene))
+        pictures["layout"] = ("image/svg+xml",
+                              layout_svg(design, scene, with_eye=False).encode("utf-8"))
         bar("layout")
         pyramids = TexturePyramids(scene)
         views = []

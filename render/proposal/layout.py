@@ -32,16 +32,20 @@ def _dimension(x0, x1, y, label) -> list[str]:
             _text((x0 + x1) / 2, y - 5, label)]
 
 
-def layout_svg(summary: dict, scene: Scene) -> str:
-    """The side-view drawing of ``scene``'s exhibit with ``summary``'s numbers, in mm."""
+def layout_svg(summary: dict, scene: Scene, with_eye: bool = True) -> str:
+    """The side-view drawing of ``scene``'s exhibit with ``summary``'s numbers, in mm.
+
+    ``with_eye`` includes the first viewer's eye point and its distance to the panel (the
+    drawing then spans that distance too).
+    """
     housing, lenses = scene.housing, scene.system.lenses
     viewer = scene.viewers[0]
     eye = scene.placement.to_device(np.asarray(viewer.eye_mm, float))
     half_height = max(housing.panel_half_height_mm, housing.tube_radius_mm)
-    left = min(eye[2], housing.panel_z_mm) - 80.0
+    left = (min(eye[2], housing.panel_z_mm) if with_eye else housing.panel_z_mm) - 80.0
     right = housing.tube_end_mm + 80.0
-    top = min(-(half_height + 140.0), -eye[1] - 60.0)
-    bottom = max(half_height + 200.0, -eye[1] + 60.0)
+    top = min(-(half_height + 140.0), -eye[1] - 60.0 if with_eye else 0.0)
+    bottom = max(half_height + 200.0, -eye[1] + 60.0 if with_eye else 0.0)
     width, height = right - left, bottom - top
     parts = [f'<svg xmlns="http://www.w3.org/2000/svg" width="{width:.1f}mm" '
              f'height="{height:.1f}mm" viewBox="{left:.1f} {top:.1f} {width:.1f} {height:.1f}" '
@@ -92,12 +96,13 @@ def layout_svg(summary: dict, scene: Scene) -> str:
                          f'width="4" height="{r_out - r_in:.2f}" fill="#b41e5a"/>')
         parts.append(_text(layer.z_mm, -r_out - 8, f"{layer.name}: ring {r_in:.0f}-{r_out:.0f} mm"
                            f" from the axis at {layer.z_mm:.0f} mm"))
-    eye_y = -(eye[1])
-    parts.append(f'<circle id="eye" cx="{eye[2]:.2f}" cy="{eye_y:.2f}" r="6" fill="#000"/>')
-    parts.append(_text(eye[2], eye_y - 14, f"eye of '{viewer.name}'"))
     dim = -(half_height + 40.0)
-    parts += _dimension(eye[2], housing.panel_z_mm, dim,
-                        f"{housing.panel_z_mm - eye[2]:.0f} eye to panel")
+    if with_eye:
+        eye_y = -(eye[1])
+        parts.append(f'<circle id="eye" cx="{eye[2]:.2f}" cy="{eye_y:.2f}" r="6" fill="#000"/>')
+        parts.append(_text(eye[2], eye_y - 14, f"eye of '{viewer.name}'"))
+        parts += _dimension(eye[2], housing.panel_z_mm, dim,
+                            f"{housing.panel_z_mm - eye[2]:.0f} eye to panel")
     for (a, b), gap in zip(zip(lenses, lenses[1:], strict=False), summary["vertex_gaps_mm"],
                            strict=True):
         parts += _dimension(a.back_z_mm, b.z_mm, dim, f"{gap:.1f}")

@@ -29,6 +29,7 @@ table.title td { border: none; text-align: left; padding: 1px 12px 1px 0; font-s
 figure { margin: 12px 0; } figure img { max-width: 100%; height: auto; border: 1px solid #ddd; }
 figcaption { font-size: 12px; color: #555; }
 .grid { display: flex; flex-wrap: wrap; gap: 12px; } .grid figure { width: 300px; }
+.grid figure.half { width: 47%; }
 .caution { background: #fff4e5; border-left: 5px solid #d9822b; padding: 8px 16px; }
 section { margin: 0; }
 @media print {
@@ -38,7 +39,7 @@ section { margin: 0; }
   h2 + * { break-before: avoid; page-break-before: avoid; }
   .keep { break-inside: avoid; page-break-inside: avoid; }
   table, figure, .caution, tr { break-inside: avoid; page-break-inside: avoid; }
-  .grid figure { width: 31%; }
+  .grid figure { width: 31%; } .grid figure.half { width: 47%; }
   figure img { max-height: 230mm; }
   a { color: inherit; text-decoration: none; }
 }
@@ -118,7 +119,7 @@ def page(data: dict, pictures: dict, paper: str = "a4") -> str:
     advice = "".join(f"<li>{html.escape(line)}</li>" for v in data["views"]
                      for line in v["advice"])
     floors = "".join(
-        f'<figure class="keep">{_img(pictures, f["image"], "floor plan " + f["name"])}'
+        f'<figure class="half">{_img(pictures, f["image"], "floor plan " + f["name"])}'
         f'<figcaption>Floor plan at eye height {f["height_mm"]:.0f} mm '
         f'({html.escape(f["name"])}).</figcaption></figure>' for f in data["floor_plans"])
     cautions = "".join(f"<li>{html.escape(c)}</li>" for c in data["cautions"])
@@ -155,8 +156,8 @@ window.addEventListener("load", function () {{
 <p>Device length {d["length_mm"]:.1f} mm from the first to the last lens vertex; total lens
 mass {d["total_mass_g"]:.0f} g ({d["total_mass_g"] / 1000:.2f} kg); lens spacing between
 principal planes {d["outer_spacing_mm"]:.2f} mm (outer pairs) and {d["inner_spacing_mm"]:.2f}
-mm (inner gap). Side view at full scale, in millimetres (also beside this page as layout.svg,
-for drafting tools):</p>
+mm (inner gap). Side view of the device, dimensions in millimetres (layout.svg beside this
+page is the same drawing at full size with the eye point, for drafting tools):</p>
 <figure>{_img(pictures, "layout", "lens layout drawing")}</figure>
 {_table(["lens", "focal length mm", "diameter mm", "centre mm", "edge mm", "material",
          "mass g", "vertex mm", "rail mm"], lens_rows)}</section>
