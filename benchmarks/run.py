@@ -1,6 +1,7 @@
 """cloakview benchmark: tracer throughput and frame times on this machine.
 
 Run: python benchmarks/run.py            (prints a table, then the same as JSON)
+     python benchmarks/run.py --json     (only the JSON)
 Not a test: the numbers depend on the machine. Every speed is measured in this run,
 numpy and compiled tracer on the same rays, so the ratio is like for like.
 """
@@ -60,16 +61,17 @@ def tracer_rates(count=2_000_000):
 
 
 def frame_times():
-    scene = load_scene(str(resources.files("sample_scenes") / "gallery" / "scene.toml"))
+    scene = load_scene(str(resources.files("cloakview.sample_scenes") / "gallery" / "scene.toml"))
     pyramids = TexturePyramids(scene)
     viewer = scene.viewers[0]
     rows = []
     for label, (width, height), ss, wavelengths in FRAMES:
         v = dataclasses.replace(viewer, width_px=width, height_px=height)
         _trace_view(scene, dataclasses.replace(v, width_px=32, height_px=18),
-                    SETUPS["cloaked"], wavelengths, pyramids, 1)
+                    SETUPS["cloaked"], wavelengths, pyramids, 1, keep_records=True)
         frame = _best(lambda v=v, ss=ss, wl=wavelengths: _trace_view(
-            scene, v, SETUPS["cloaked"], wl, pyramids, ss), repeat=3 if width < 1000 else 1)
+            scene, v, SETUPS["cloaked"], wl, pyramids, ss, keep_records=True),
+            repeat=3 if width < 1000 else 1)
         timed = dataclasses.replace(scene, settings=dataclasses.replace(
             scene.settings, wavelengths_nm=wavelengths))
         start = time.perf_counter()
@@ -82,18 +84,19 @@ def frame_times():
 
 def sweep_time():
     """Wall time of the default sight-line sweep of the gallery scene, from a cold start."""
-    scene = str(resources.files("sample_scenes") / "gallery" / "scene.toml")
+    scene = str(resources.files("cloakview.sample_scenes") / "gallery" / "scene.toml")
     with tempfile.TemporaryDirectory() as out:
         start = time.perf_counter()
-        subprocess.run([sys.executable, "-m", "render.cli", "sightlines", scene, "--out", out,
-                        "--json"], check=True, capture_output=True)
+        subprocess.run([sys.executable, "-m", "cloakview.render.cli.main", "sightlines", scene,
+                        "--out", out, "--json", "--fresh"], check=True, capture_output=True)
         return time.perf_counter() - start
 
 
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--skip-sweep", action="store_true",
-                        help="leave out the default sight-line sweep (about 35 s)")
+                        help="leave out the default sight-line sweep (about 30 s)")
+    parser.add_argument("--json", action="store_true", help="print only the JSON")
     args = parser.parse_args()
     rates, count, surfaces = tracer_rates()
     frames = frame_times()
@@ -109,6 +112,9 @@ def main():
         "sightline_sweep_s": None if sweep is None else round(sweep, 1),
         "peak_memory_mb": round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024),
     }
+    if args.json:
+        print(json.dumps(report, indent=2))
+        return
     print(f"{'tracer path':<12}{'ray-surface steps/s':>22}")
     for name, rate in rates.items():
         print(f"{name:<12}{rate:>22,.0f}")
@@ -119,7 +125,7 @@ def main():
               f"{row['wavelengths']:>4}{row['cloaked_frame_s']:>11.3f}"
               f"{row['all_views_and_metrics_s']:>13.3f}")
     if sweep is not None:
-        print(f"default sight-line sweep (gallery, 2737 points): {sweep:.1f} s")
+        print(f"default sight-line sweep (gallery, from a cold cache): {sweep:.1f} s")
     print(f"peak memory: {report['peak_memory_mb']} MB\n")
     print(json.dumps(report, indent=2))
 

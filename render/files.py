@@ -15,7 +15,7 @@ import time
 from importlib import metadata
 from pathlib import Path
 
-import imageio.v3 as iio
+import cv2
 import matplotlib
 import numpy as np
 from cloakview.optics.errors import InputError
@@ -98,14 +98,26 @@ def atomic_write(path: Path, write) -> None:
         raise
 
 
+#: zlib level of the PNGs we write: 1 is fast and lossless like every level (our choice).
+PNG_COMPRESSION = 1
+
+
 def png_bytes(image_uint8: np.ndarray) -> bytes:
-    """An 8-bit image as PNG bytes."""
-    return iio.imwrite("<bytes>", image_uint8, extension=".png")
+    """An 8-bit grey, RGB or RGBA image as PNG bytes, encoded by OpenCV at a low zlib level."""
+    image = np.ascontiguousarray(image_uint8)
+    if image.ndim == 3:  # OpenCV wants BGR or BGRA
+        order = [2, 1, 0, 3][:image.shape[2]]
+        image = np.ascontiguousarray(image[..., order])
+    ok, encoded = cv2.imencode(".png", image, [cv2.IMWRITE_PNG_COMPRESSION, PNG_COMPRESSION])
+    if not ok:
+        raise ValueError("could not encode the picture as PNG")
+    return encoded.tobytes()
 
 
 def write_png(path: Path, image_uint8: np.ndarray) -> None:
     """Write an 8-bit image as PNG via a temporary file and a rename."""
-    atomic_write(Path(path), lambda temp: iio.imwrite(temp, image_uint8, extension=".png"))
+    data = png_bytes(image_uint8)
+    atomic_write(Path(path), lambda temp: Path(temp).write_bytes(data))
 
 
 def figure_bytes(figure, fmt: str) -> bytes:

@@ -174,3 +174,33 @@ def test_metrics_from_every_kth_ray_match_the_full_frame(tmp_path, monkeypatch):
         assert sampled["background_shift_arcmin"][key] == pytest.approx(
             full["background_shift_arcmin"][key], rel=0.05)
     assert sampled["transmittance"] == pytest.approx(full["transmittance"], rel=0.01)
+
+
+def test_resolving_samples_equals_the_mean_over_the_grid():
+    # The strided float64 sum must give the plain mean over pupil points and supersamples.
+    from cloakview.render.frame.composite import resolve_samples
+    rng = np.random.default_rng(5)
+    for pupil, s, channels in ((1, 1, 1), (1, 2, 3), (3, 2, 3), (2, 3, 1)):
+        rows, cols = 4 * s, 6 * s
+        samples = rng.random((pupil * rows * cols, channels)).astype(np.float32)
+        expected = samples.reshape(pupil, rows // s, s, cols // s, s, channels).mean(
+            axis=(0, 2, 4), dtype=np.float64)
+        np.testing.assert_allclose(resolve_samples(samples, (pupil, rows, cols), s), expected,
+                                   rtol=1e-6, atol=1e-7)
+
+
+def test_background_ssim_on_the_crop_equals_the_whole_picture():
+    # Wang et al. (2004): SSIM of a pixel depends on its 7 x 7 window only, so scoring a
+    # crop that keeps every masked pixel's window gives the same mean as the whole picture.
+    from cloakview.render.frame.metrics import background_ssim
+    from skimage.metrics import structural_similarity
+    rng = np.random.default_rng(2)
+    reference = rng.random((90, 160, 3))
+    cloaked = np.clip(reference + rng.normal(0, 0.1, reference.shape), 0, 1)
+    mask = np.zeros((90, 160), bool)
+    mask[30:52, 70:101] = True
+    test = np.where(mask[..., None], cloaked, reference)
+    _, full = structural_similarity(reference, test, channel_axis=-1, data_range=1.0,
+                                    full=True, win_size=7)
+    assert background_ssim(cloaked, reference, mask) == pytest.approx(
+        float(full.mean(axis=-1)[mask].mean()), abs=1e-12)

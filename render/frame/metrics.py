@@ -102,15 +102,26 @@ def background_ssim(cloaked_srgb: np.ndarray, reference_srgb: np.ndarray,
     """Mean SSIM [1] over ``through_mask`` pixels (None when the through-view is tiny).
 
     Pixels outside the mask are copied from the reference first, so the housing
-    around the through-view does not enter the score.
+    around the through-view does not enter the score. Only a crop round the mask is
+    scored: its margin of half the 7-pixel window keeps every masked pixel's window
+    inside it, so the value is the one the whole picture would give.
     """
     if through_mask.sum() < MIN_THROUGH_PIXELS:
         return None
-    test = np.where(through_mask[..., None], cloaked_srgb, reference_srgb)
-    size = min(7, *[s - (1 - s % 2) for s in test.shape[:2]])
-    _, ssim_map = structural_similarity(reference_srgb, test, channel_axis=-1,
-                                        data_range=1.0, full=True, win_size=size)
-    return float(ssim_map.mean(axis=-1)[through_mask].mean())
+    h, w = through_mask.shape
+    size = min(7, *[s - (1 - s % 2) for s in (h, w)])
+    margin = size // 2
+    rows, cols = np.nonzero(through_mask)
+    r0, r1 = max(rows.min() - margin, 0), min(rows.max() + margin + 1, h)
+    c0, c1 = max(cols.min() - margin, 0), min(cols.max() + margin + 1, w)
+    if r1 - r0 < size or c1 - c0 < size:  # too small a crop: score the whole picture
+        r0, r1, c0, c1 = 0, h, 0, w
+    mask = through_mask[r0:r1, c0:c1]
+    reference = reference_srgb[r0:r1, c0:c1]
+    test = np.where(mask[..., None], cloaked_srgb[r0:r1, c0:c1], reference)
+    _, ssim_map = structural_similarity(reference, test, channel_axis=-1, data_range=1.0,
+                                        full=True, win_size=size)
+    return float(ssim_map.mean(axis=-1)[mask].mean())
 
 
 def angular_shift_arcmin(eye_mm, x_a, y_a, x_b, y_b, plane_z_mm: float) -> np.ndarray:
