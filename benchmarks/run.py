@@ -56,7 +56,8 @@ def tracer_rates(count=2_000_000):
     rates = {}
     for backend in available_backends():
         trace(rays, surfaces, backend=backend)  # warm-up (compilation, caches)
-        rates[backend] = steps / _best(lambda b=backend: trace(rays, surfaces, backend=b))
+        rates[backend.replace("-", "_")] = steps / _best(
+            lambda b=backend: trace(rays, surfaces, backend=b))
     return rates, count, len(surfaces)
 
 
@@ -102,12 +103,14 @@ def main():
     frames = frame_times()
     sweep = None if args.skip_sweep else sweep_time()
     ratio = rates["compiled"] / rates["numpy"] if "compiled" in rates else None
+    packets = rates["compiled"] / rates["per_ray"] if "per_ray" in rates else None
     report = {
         "date": time.strftime("%Y-%m-%d"),
         "machine": f"{platform.machine()}, {os.cpu_count()} cores",
         "tracer": {"rays": count, "surfaces": surfaces,
                    "steps_per_s": {k: round(v) for k, v in rates.items()},
-                   "compiled_over_numpy": None if ratio is None else round(ratio, 2)},
+                   "compiled_over_numpy": None if ratio is None else round(ratio, 2),
+                   "compiled_over_per_ray": None if packets is None else round(packets, 2)},
         "frames": frames,
         "sightline_sweep_s": None if sweep is None else round(sweep, 1),
         "peak_memory_mb": round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024),
@@ -118,7 +121,8 @@ def main():
     print(f"{'tracer path':<12}{'ray-surface steps/s':>22}")
     for name, rate in rates.items():
         print(f"{name:<12}{rate:>22,.0f}")
-    print(f"compiled / numpy: {report['tracer']['compiled_over_numpy']}")
+    print(f"compiled (packets) / numpy: {report['tracer']['compiled_over_numpy']}; "
+          f"compiled / per-ray kernel: {report['tracer']['compiled_over_per_ray']}")
     print(f"\n{'frame':<9}{'size':>11}{'ss':>4}{'wl':>4}{'cloaked s':>11}{'all views s':>13}")
     for row in frames:
         print(f"{row['frame']:<9}{row['size']:>11}{row['supersample']:>4}"

@@ -362,18 +362,23 @@ def _wavelength_table(wavelength_nm: np.ndarray) -> tuple[np.ndarray, np.ndarray
 
 
 def available_backends() -> tuple[str, ...]:
-    """The tracing paths this machine can run: always "numpy", "compiled" with numba."""
+    """The tracing paths this machine can run.
+
+    Always "numpy" (the reference); with numba also "per-ray" (the compiled kernel that
+    walks one ray at a time) and "compiled" (packets of rays in vector lanes, the default).
+    """
     try:
         import cloakview.optics.trace_kernel  # noqa: F401
     except ImportError:
         return ("numpy",)
-    return ("numpy", "compiled")
+    return ("numpy", "per-ray", "compiled")
 
 
 def _choose_backend(backend: str | None) -> str:
     choice = (backend or os.environ.get("CLOAKVIEW_TRACER") or "auto").lower()
-    if choice not in ("auto", "numpy", "compiled"):
-        raise InputError("CLOAKVIEW_TRACER", choice, "must be auto, numpy or compiled")
+    if choice not in ("auto", "numpy", "per-ray", "compiled"):
+        raise InputError("CLOAKVIEW_TRACER", choice, "must be auto, numpy, per-ray or "
+                         "compiled")
     if choice == "auto":
         return available_backends()[-1]
     if choice not in available_backends():
@@ -394,21 +399,23 @@ def trace(rays: Rays, elements, housing: Housing | None = None,
         Sorted here by ``z_mm`` (stable, so ties keep their order).
     housing : Housing, optional
         Panel and tube; without it every ray is inside the device.
-    backend : {"auto", "numpy", "compiled"}, optional
+    backend : {"auto", "numpy", "per-ray", "compiled"}, optional
         Which path runs; default from the ``CLOAKVIEW_TRACER`` environment variable,
-        else "auto" (compiled when numba is installed). Both give the same result.
+        else "auto" (compiled when numba is installed). All give the same result.
 
     Returns
     -------
     TraceResult
     """
     ordered = sorted(elements, key=lambda e: e.z_mm)
-    if _choose_backend(backend) == "compiled":
-        return _trace_compiled(rays, ordered, housing)
-    return _trace_numpy(rays, ordered, housing)
+    choice = _choose_backend(backend)
+    if choice == "numpy":
+        return _trace_numpy(rays, ordered, housing)
+    return _trace_compiled(rays, ordered, housing, packets=choice == "compiled")
 
 
-def _trace_compiled(rays: Rays, ordered, housing: Housing | None) -> TraceResult:
+def _trace_compiled(rays: Rays, ordered, housing: Housing | None,
+                    packets: bool = True) -> TraceResult:
     from cloakview.optics import trace_kernel as kernel
 
     count = len(rays)
@@ -449,10 +456,10 @@ def _trace_compiled(rays: Rays, ordered, housing: Housing | None) -> TraceResult
     fate = np.empty(count, np.int8)
     entered = np.empty(count, bool)
     cross = np.full((max(len(probes), 1), 3, count), np.nan)
-    kernel.trace_rays(rays.x, rays.y, rays.z, rays.dx, rays.dy, rays.dz, rays.throughput,
-                      wl_index, kind, ez, curv, semi, focal,
-                      coat, slot, n_before, n_after, frames, box, panel_index, state, fate,
-                      entered, cross)
+    run = kernel.trace_packets if packets else kernel.trace_rays
+    run(rays.x, rays.y, rays.z, rays.dx, rays.dy, rays.dz, rays.throughput, wl_index, kind,
+        ez, curv, semi, focal, coat, slot, n_before, n_after, frames, box, panel_index, state,
+        fate, entered, cross)
     crossings = {p.name: Crossing(cross[k, 0], cross[k, 1], cross[k, 2])
                  for k, p in enumerate(probes)}
     return TraceResult(*state[:6], state[6], fate, entered, crossings)
