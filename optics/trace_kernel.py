@@ -62,6 +62,18 @@ def _frame(x, y, z, dx, dy, dz, f, inverse):
 
 
 @numba.njit(cache=True, inline="always")
+def _fresnel_transmittance(n1, n2, cos_i, cos_t):
+    """``optics.fresnel.unpolarised_transmittance``, written out for numba (Hecht [3])."""
+    aa = n1 * cos_i
+    bb = n2 * cos_t
+    rs = (aa - bb) / (aa + bb)
+    cc = n2 * cos_i
+    dd = n1 * cos_t
+    rp = (cc - dd) / (cc + dd)
+    return 1.0 - 0.5 * (rs * rs + rp * rp)
+
+
+@numba.njit(cache=True, inline="always")
 def _wall_hit(x, y, z, dx, dy, dz, z_plane, radius):
     """Exact tube-wall point if the ray reaches the radius before ``z_plane``, else t < 0."""
     t_plane = (z_plane - z) / dz
@@ -253,14 +265,7 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                     dy = eta * dy + scale * ny
                     dz = eta * dz + scale * nz
                     if coat[e] < 0.0:
-                        # optics.fresnel.unpolarised_transmittance, written out for numba
-                        aa = n1 * cos_i
-                        bb = n2 * cos_t
-                        rs = (aa - bb) / (aa + bb)
-                        cc = n2 * cos_i
-                        dd = n1 * cos_t
-                        rp = (cc - dd) / (cc + dd)
-                        tp *= 1.0 - 0.5 * (rs * rs + rp * rp)
+                        tp *= _fresnel_transmittance(n1, n2, cos_i, cos_t)
                     else:
                         tp *= 1.0 - coat[e]
                     if dz <= 0.0:
@@ -297,6 +302,22 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
 #: and packets per parallel chunk (their scratch lanes are allocated once per chunk).
 LANES = 64
 CHUNK = 16
+
+
+@numba.njit(cache=True, inline="always")
+def _probe_lanes(X, Y, Z, DX, DY, DZ, TP, ACT, ze, cross, probe, first, count):
+    """Move the travelling lanes to the probe plane at ``ze`` and record their crossings."""
+    for j in range(LANES):
+        t = (ze - Z[j]) / DZ[j]
+        go = ACT[j]
+        X[j] = X[j] + t * DX[j] if go else X[j]
+        Y[j] = Y[j] + t * DY[j] if go else Y[j]
+        Z[j] = ze if go else Z[j]
+    for j in range(count):
+        if ACT[j]:
+            cross[probe, 0, first + j] = X[j]
+            cross[probe, 1, first + j] = Y[j]
+            cross[probe, 2, first + j] = TP[j]
 
 
 @numba.njit(cache=True, inline="always")
@@ -379,17 +400,8 @@ def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                     if kind[e] != PROBE:
                         continue
                     ze = ez[e]
-                    for j in range(LANES):
-                        t = (ze - Z[j]) / DZ[j]
-                        go = ACT[j]
-                        X[j] = X[j] + t * DX[j] if go else X[j]
-                        Y[j] = Y[j] + t * DY[j] if go else Y[j]
-                        Z[j] = ze if go else Z[j]
-                    for j in range(count):
-                        if ACT[j]:
-                            cross[slot[e], 0, first + j] = X[j]
-                            cross[slot[e], 1, first + j] = Y[j]
-                            cross[slot[e], 2, first + j] = TP[j]
+                    _probe_lanes(X, Y, Z, DX, DY, DZ, TP, ACT, ze, cross, slot[e], first,
+                                 count)
                 start = panel_index
                 for j in range(LANES):
                     go = ACT[j]
@@ -442,17 +454,8 @@ def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                         PEND[j] = pend
                         ACT[j] = go & (not stop)
                 if k == PROBE:
-                    for j in range(LANES):
-                        t = (ze - Z[j]) / DZ[j]
-                        go = ACT[j]
-                        X[j] = X[j] + t * DX[j] if go else X[j]
-                        Y[j] = Y[j] + t * DY[j] if go else Y[j]
-                        Z[j] = ze if go else Z[j]
-                    for j in range(count):
-                        if ACT[j]:
-                            cross[slot[e], 0, first + j] = X[j]
-                            cross[slot[e], 1, first + j] = Y[j]
-                            cross[slot[e], 2, first + j] = TP[j]
+                    _probe_lanes(X, Y, Z, DX, DY, DZ, TP, ACT, ze, cross, slot[e], first,
+                                 count)
                     continue
                 mounted = frames[e, 0] > 0.5
                 f = frames[e]
@@ -524,14 +527,7 @@ def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                         ndx = eta * dx + scale * nx
                         ndy = eta * dy + scale * ny
                         ndz = eta * dz + scale * nz
-                        # optics.fresnel.unpolarised_transmittance, or the coating's
-                        aa = n1 * cos_i
-                        bb = n2 * cos_t
-                        rs = (aa - bb) / (aa + bb)
-                        cc = n2 * cos_i
-                        dd = n1 * cos_t
-                        rp = (cc - dd) / (cc + dd)
-                        fresnel = UTP[j] * (1.0 - 0.5 * (rs * rs + rp * rp))
+                        fresnel = UTP[j] * _fresnel_transmittance(n1, n2, cos_i, cos_t)
                         coated = UTP[j] * (1.0 - coat[e])
                         ntp = fresnel if bare else coated
                         UDX[j] = dx if stopped else ndx
