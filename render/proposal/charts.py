@@ -21,6 +21,7 @@ from cloakview.render.sweeps.zone import RADIAL_STEP_MM, Ring, ZoneMap
 from matplotlib.colors import ListedColormap
 from matplotlib.figure import Figure
 from matplotlib.patches import Patch, Rectangle
+from matplotlib.ticker import MaxNLocator
 
 #: Class colours (our own palette): green, amber, violet, red, grey.
 CLASS_COLOURS = {"works": "#2ea05a", "partly": "#ebaa28", "hidden": "#8250c8",
@@ -249,6 +250,7 @@ def tolerance_histograms(rows: list[dict], title: str) -> Figure:
         ax.axvline(mark, color="#cd3c32", ls="--", label=mark_label.replace("%", " %"))
         ax.set_xlabel(label)
         ax.set_ylabel("builds")
+        ax.yaxis.set_major_locator(MaxNLocator(integer=True))
         ax.legend(fontsize=8, frameon=False)
     fig.suptitle(title, fontsize=10)
     return fig
