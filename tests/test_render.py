@@ -204,3 +204,16 @@ def test_background_ssim_on_the_crop_equals_the_whole_picture():
                                     full=True, win_size=7)
     assert background_ssim(cloaked, reference, mask) == pytest.approx(
         float(full.mean(axis=-1)[mask].mean()), abs=1e-12)
+
+
+def test_skipping_the_reference_without_a_through_view_changes_no_number(tmp_path):
+    # A viewer far off the axis sees no background through the lenses: the reference view
+    # is then not traced unless a picture needs it, and every metric must stay the same.
+    path = write_scene(tmp_path, layers=RING, width=64, height=48)
+    scene = load_scene(path)
+    viewer = dataclasses.replace(scene.viewers[0], eye_mm=(140.0, 1150.0, -600.0),
+                                 look_at_mm=(0.0, 1150.0, 0.0))
+    skipped = render_viewer(scene, viewer, views=()).metrics
+    traced = render_viewer(scene, viewer, views=("reference",)).metrics
+    assert skipped["window_deg"] == 0.0
+    assert json.dumps(skipped, sort_keys=True) == json.dumps(traced, sort_keys=True)

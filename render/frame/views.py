@@ -232,6 +232,23 @@ def _front_background(scene: Scene):
                key=lambda layer: layer.z_mm)
 
 
+def _reference_unneeded(cloaked: TracedView, views) -> bool:
+    """Whether the reference view can be left untraced: no ray passed the device.
+
+    Then the metrics that use the reference (background likeness and shift) have nothing
+    to measure, and unless a picture needs it, tracing it would change no number.
+    """
+    return not (cloaked.through > 0.0).any() and not {"reference", "difference"} & set(views)
+
+
+def _unlit(cloaked: TracedView) -> TracedView:
+    """A stand-in reference view with no pixels lit and no ray records (see above)."""
+    empty = RayRecord(*(np.zeros(0, dtype) for dtype in (np.int64, float, float, float)))
+    zeros = np.zeros_like(cloaked.hidden)
+    return TracedView(np.zeros_like(cloaked.image), zeros, zeros, zeros, zeros,
+                      {wl: empty for wl in cloaked.records})
+
+
 def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None = None,
                   views=VIEW_NAMES, supersample: int | None = None,
                   progress=None) -> ViewerRender:
@@ -252,8 +269,11 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
     check_memory(viewer, ss, len(scene.settings.wavelengths_nm))
     traced = {}
     for name, setup in SETUPS.items():
-        traced[name] = _trace_view(scene, viewer, setup, scene.settings.wavelengths_nm,
-                                   pyramids, ss, keep_records=name != "naked")
+        if name == "reference" and _reference_unneeded(traced["cloaked"], views):
+            traced[name] = _unlit(traced["cloaked"])
+        else:
+            traced[name] = _trace_view(scene, viewer, setup, scene.settings.wavelengths_nm,
+                                       pyramids, ss, keep_records=name != "naked")
         if progress:
             progress(f"{viewer.name}: {name}")
     srgb = {name: linear_to_srgb(t.image) for name, t in traced.items()}
