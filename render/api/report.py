@@ -21,7 +21,7 @@ from cloakview.render.files import (
     write_text,
 )
 from cloakview.render.frame.composite import TexturePyramids
-from cloakview.render.frame.metrics import WORKS_DEFINITION
+from cloakview.render.frame.metrics import WORKS_DEFINITION, percent
 from cloakview.render.frame.overlays import caption, inset_view, view_caption
 from cloakview.render.frame.views import render_viewer
 from cloakview.render.planning import tolerance as tl
@@ -57,10 +57,6 @@ ASSUMPTIONS = (
     "Lens data come from the scene file or the inventory; check them against the "
     "supplier's drawings before ordering.",
 )
-
-
-def _pct(value):
-    return "-" if value is None else f"{value:.0%}"
 
 
 def _with_inventory_lenses(scene, inventory, outer, inner):
@@ -248,8 +244,8 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
                                             workers=workers)
         low, high = summary["yield_interval_95"]
         pictures["histograms"] = _svg(charts.tolerance_histograms(
-            build_rows, f"{scene.title}: {builds} builds, yield {_pct(summary['yield'])} "
-            f"(95 % interval {_pct(low)} to {_pct(high)})"))
+            build_rows, f"{scene.title}: {builds} builds, yield {percent(summary['yield'])} "
+            f"(95 % interval {percent(low)} to {percent(high)})"))
         bar("tolerances")
         data = {
             "title": scene.title, "version": program_version(), "title_block": title_block,
@@ -260,9 +256,9 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
                         "the device drops out of sight; background takes its place only where "
                         "the object lies inside the through-window. From the design viewing "
                         f"point ('{base.name}'), background fills "
-                        f"{_pct(views[0]['replaced_fraction'])} of the object's place, dark "
-                        f"housing {_pct(views[0]['blocked_fraction'])} and the object itself "
-                        f"{_pct(views[0]['showing_fraction'])} (verdict: "
+                        f"{percent(views[0]['replaced_fraction'])} of the object's place, dark "
+                        f"housing {percent(views[0]['blocked_fraction'])} and the object itself "
+                        f"{percent(views[0]['showing_fraction'])} (verdict: "
                         f"{views[0]['verdict']}). The pages below show what visitors of "
                         "different heights see, from where it works, what can be hidden, and "
                         "how precisely it must be built."),

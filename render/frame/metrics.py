@@ -139,9 +139,12 @@ def percentiles(values: np.ndarray) -> dict | None:
     return {"median": float(np.median(values)), "p95": float(np.percentile(values, 95))}
 
 
-def percent(value: float) -> str:
-    """A share as a whole percentage with a space before the sign (``0.46`` -> ``46 %``)."""
-    return f"{value:.0%}".replace("%", " %")
+def percent(value: float | None) -> str:
+    """A share as a whole percentage with a space before the sign (``0.46`` -> ``46 %``).
+
+    None (nothing measured) gives ``-``.
+    """
+    return "-" if value is None else f"{value:.0%}".replace("%", " %")
 
 
 def sees_background(metrics: dict) -> bool:

@@ -14,10 +14,11 @@ from cloakview.render.frame.metrics import (
     CLASSES,
     WORKS_REPLACED,
     WORKS_SHIFT_ARCMIN,
+    percent,
 )
 from cloakview.render.scene.model import Scene, glass_extent, opaque_radii_mm
 from cloakview.render.sweeps.sightlines import EYE_HEIGHTS_MM
-from cloakview.render.sweeps.zone import RADIAL_STEP_MM, Ring, ZoneMap
+from cloakview.render.sweeps.zone import RADIAL_STEP_MM, Ring, ZoneMap, object_fit
 from matplotlib.colors import ListedColormap
 from matplotlib.figure import Figure
 from matplotlib.patches import Patch, Rectangle
@@ -67,6 +68,12 @@ def _class_mesh(ax, x_edges, y_edges, grid) -> None:
                   vmax=len(CLASSES) - 0.5, shading="flat")
 
 
+def _star(ax, x, y, label):
+    """Mark the recommended point; return its legend handle."""
+    return ax.plot([x], [y], marker="*", ms=14, color="white", mec="black", ls="none",
+                   label=label)[0]
+
+
 def floor_plan(scene: Scene, rows: list[dict], xs, ds, height_mm: float, title: str,
                spot: dict | None = None) -> Figure:
     """Plan view: where on the floor the effect works at one eye height.
@@ -90,9 +97,7 @@ def floor_plan(scene: Scene, rows: list[dict], xs, ds, height_mm: float, title: 
     ax.plot([-panel, panel], [0, 0], color="black", lw=3)
     extra = [Patch(color=TUBE_COLOUR, label="device: tube, lenses (blue), front panel (black)")]
     if spot is not None and spot["h"] == height_mm:
-        ax.plot([spot["x"]], [spot["d"] / 1000.0], marker="*", ms=14, color="white",
-                mec="black", ls="none", label="recommended floor mark")
-        extra.append(ax.lines[-1])
+        extra.append(_star(ax, spot["x"], spot["d"] / 1000.0, "recommended floor mark"))
     ax.set_xlim(min(min(xs), -panel) - 10, max(max(xs), panel) + 10)
     ax.set_ylim(-length - 0.05, max(ds) / 1000.0 + 0.1)
     ax.set_xlabel("sideways offset of the eye from the axis [mm]")
@@ -119,9 +124,7 @@ def elevation(scene: Scene, rows: list[dict], hs, ds, title: str,
                         xytext=(3, 2), textcoords="offset points")
     extra = [axis_line]
     if spot is not None:
-        ax.plot([spot["d"] / 1000.0], [spot["h"]], marker="*", ms=14, color="white",
-                mec="black", ls="none", label="recommended spot")
-        extra.append(ax.lines[-1])
+        extra.append(_star(ax, spot["d"] / 1000.0, spot["h"], "recommended spot"))
     ax.invert_xaxis()  # the panel on the right, as seen from the side
     ax.set_xlabel("distance of the eye from the front panel [m] (panel to the right)")
     ax.set_ylabel("eye height above the floor [mm]")
@@ -129,25 +132,6 @@ def elevation(scene: Scene, rows: list[dict], hs, ds, title: str,
                  fontsize=10)
     _class_legend(ax, extra)
     return fig
-
-
-def object_fit(zone: ZoneMap, layer, z_mm: float) -> tuple[bool, float]:
-    """Whether a hidden layer's visible radii lie in the hidden zone at its slab.
-
-    Returns (fits, by how many mm the seen region reaches into the object's radial span:
-    0 when it fits).
-    """
-    r_in, r_out = opaque_radii_mm(layer)
-    i = int(np.argmin(np.abs(zone.z_mm - z_mm)))
-    lo = zone.r_mm - RADIAL_STEP_MM / 2
-    hi = zone.r_mm + RADIAL_STEP_MM / 2
-    inside = (hi > r_in) & (lo < r_out)
-    seen = inside & ~zone.hidden[i]
-    if not seen.any():
-        return True, 0.0
-    from_inner = min(float(hi[seen].max()), r_out) - r_in
-    from_outer = r_out - max(float(lo[seen].min()), r_in)
-    return False, min(from_inner, from_outer)
 
 
 def zone_drawing(zone: ZoneMap, scene: Scene, rings: list[Ring], title: str) -> Figure:
@@ -188,7 +172,7 @@ def zone_drawing(zone: ZoneMap, scene: Scene, rings: list[Ring], title: str) -> 
         if layer.role != "hidden":
             continue
         r_in, r_out = opaque_radii_mm(layer)
-        fits, by = object_fit(zone, layer, layer.z_mm)
+        fits, by = object_fit(zone, layer)
         for sign in (1, -1):
             ax.plot([layer.z_mm, layer.z_mm], [sign * r_in, sign * r_out], color="#b41e5a",
                     lw=3, solid_capstyle="butt")
@@ -239,7 +223,7 @@ def tolerance_histograms(rows: list[dict], title: str) -> Figure:
     """Over the builds: background share of the object's place, and the background shift."""
     fig = _figure(9.0, 3.8)
     panels = (("replaced_fraction", "object's place filled by background", WORKS_REPLACED,
-               f"pass: at least {WORKS_REPLACED:.0%}"),
+               f"pass: at least {percent(WORKS_REPLACED)}"),
               ("shift_median_arcmin", "median background shift [arcmin]", WORKS_SHIFT_ARCMIN,
                f"pass: at most {WORKS_SHIFT_ARCMIN:g} arcmin"))
     axes = fig.subplots(1, 2)
@@ -247,7 +231,7 @@ def tolerance_histograms(rows: list[dict], title: str) -> Figure:
         values = np.array([r[key] for r in rows if r.get(key) is not None], float)
         if values.size:
             ax.hist(values, bins=20, color="#3c78be")
-        ax.axvline(mark, color="#cd3c32", ls="--", label=mark_label.replace("%", " %"))
+        ax.axvline(mark, color="#cd3c32", ls="--", label=mark_label)
         ax.set_xlabel(label)
         ax.set_ylabel("builds")
         ax.yaxis.set_major_locator(MaxNLocator(integer=True))
@@ -267,7 +251,7 @@ def walk_metrics(rows: list[dict], title: str) -> Figure:
                  colors=["#1fb5a8", "#8450d8", "#e8543a"],
                  labels=["background", "dark housing", "the object"])
     ax.axhline(WORKS_REPLACED, color="black", ls="--", lw=1,
-               label=f"works: background at least {WORKS_REPLACED:.0%}".replace("%", " %"))
+               label=f"works: background at least {percent(WORKS_REPLACED)}")
     works = [r["frame"] for r in rows if r["class"] == "works"]
     if works:
         ax.plot(works, [1.02] * len(works), ls="none", marker="v", color=CLASS_COLOURS["works"],

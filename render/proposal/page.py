@@ -13,6 +13,8 @@ import base64
 import html
 import math
 
+from cloakview.render.frame.metrics import percent
+
 PAPERS = {"a4": "A4", "letter": "letter"}
 
 _STYLE = """
@@ -66,10 +68,6 @@ def _fmt(value, pattern="{:.2f}"):
     return pattern.format(value)
 
 
-def _pct(value):
-    return "-" if value is None else f"{value:.0%}".replace("%", " %")
-
-
 def _img(pictures: dict, name: str, alt: str) -> str:
     mime, data = pictures[name]
     return f'<img src="{data_uri(mime, data)}" alt="{html.escape(alt)}">'
@@ -108,11 +106,11 @@ def page(data: dict, pictures: dict, paper: str = "a4") -> str:
         f'</figcaption></figure>' for v in data["views"])
     tol = data["tolerance"]
     low, high = tol["yield_interval_95"]
-    tol_rows = [[s["label"], _fmt(s["value"], "{:g}"), _pct(s["yield_alone"]),
+    tol_rows = [[s["label"], _fmt(s["value"], "{:g}"), percent(s["yield_alone"]),
                  _fmt(tol["for_95_yield"][s["tolerance"]]["largest_tested_with_95_yield"],
                       "{:g}")] for s in tol["sensitivity"]]
-    view_rows = [[v["name"], _pct(v["replaced_fraction"]), _pct(v["blocked_fraction"]),
-                  _pct(v["showing_fraction"]), _fmt(v["window_deg"], "{:.2f}"),
+    view_rows = [[v["name"], percent(v["replaced_fraction"]), percent(v["blocked_fraction"]),
+                  percent(v["showing_fraction"]), _fmt(v["window_deg"], "{:.2f}"),
                   _fmt(v["object_outer_deg"], "{:.2f}"), _fmt(v["background_ssim"]),
                   _fmt(v["shift_median_arcmin"]), _fmt(v["color_fringe_arcmin"], "{:.1f}"),
                   _fmt(v["transmittance"], "{:.3f}"), v["verdict"]] for v in data["views"]]
@@ -199,8 +197,8 @@ against distance on the axis line.</figcaption></figure>
 <p>{tol["builds"]} simulated builds with each lens within +-{tol["tolerances"]["axial_mm"]:g} mm
 along the axis, +-{tol["tolerances"]["decenter_mm"]:g} mm sideways,
 +-{tol["tolerances"]["tilt_deg"]:g} deg tilt and +-{tol["tolerances"]["focal_pct"]:g} % focal
-length: {_pct(tol["yield"])} work from the design viewer (95 % interval {_pct(low)} to
-{_pct(high)}, Wilson score interval).</p>
+length: {percent(tol["yield"])} work from the design viewer (95 % interval {percent(low)} to
+{percent(high)}, Wilson score interval).</p>
 {_table(["tolerance", "+- value", "yield with it alone", "largest tested for 95 % yield"],
         tol_rows)}
 <figure>{_img(pictures, "histograms", "tolerance histograms")}</figure></section>

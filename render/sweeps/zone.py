@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 from cloakview.optics.surfaces import Probe
 from cloakview.optics.trace import Rays, trace
-from cloakview.render.scene.model import Scene, glass_extent
+from cloakview.render.scene.model import Layer, Scene, glass_extent, opaque_radii_mm
 
 RADIAL_STEP_MM = 0.5
 AXIAL_STEP_MM = 2.0
@@ -258,3 +258,22 @@ def largest_rings(zone: ZoneMap, scene: Scene) -> list[Ring]:
                           min(c1 * RADIAL_STEP_MM, scene.housing.tube_radius_mm),
                           float(zone.z_mm[rows[r0]] - half), float(zone.z_mm[rows[r1 - 1]] + half)))
     return rings
+
+
+def object_fit(zone: ZoneMap, layer: Layer) -> tuple[bool, float]:
+    """Whether a hidden layer's visible radii lie in the hidden zone at its own slab.
+
+    Returns (fits, by how many mm the seen region reaches into the object's radial span:
+    0 when it fits).
+    """
+    r_in, r_out = opaque_radii_mm(layer)
+    i = int(np.argmin(np.abs(zone.z_mm - layer.z_mm)))
+    lo = zone.r_mm - RADIAL_STEP_MM / 2
+    hi = zone.r_mm + RADIAL_STEP_MM / 2
+    inside = (hi > r_in) & (lo < r_out)
+    seen = inside & ~zone.hidden[i]
+    if not seen.any():
+        return True, 0.0
+    from_inner = min(float(hi[seen].max()), r_out) - r_in
+    from_outer = r_out - max(float(lo[seen].min()), r_in)
+    return False, min(from_inner, from_outer)
