@@ -176,7 +176,7 @@ def _lay_out(lenses, outer_gap: float, inner_gap: float) -> tuple[PlacedLens, ..
 def _efl(lens) -> float:
     if isinstance(lens, ThinLens):
         return lens.focal_length_mm
-    return PlacedLens(lens, 0.0).cardinal_points().efl_mm
+    return float(PlacedLens(lens, 0.0).cardinal_points().efl_mm)
 
 
 def design_cloak(f_outer_mm: float, f_inner_mm: float, choice: LensChoice,

@@ -95,10 +95,7 @@ def _remove_stale_temporaries(folder: Path) -> None:
 
 def _remove_previous_outputs(folder: Path) -> None:
     """Remove what the folder's last run wrote (its manifest's names), nothing else."""
-    manifest = folder / MANIFEST_NAME
-    if not manifest.is_file():
-        return
-    for name in manifest.read_text(encoding="utf-8", errors="replace").splitlines():
+    for name in _manifest_names(folder):
         path = folder / name
         if not name or "/" in name or name in (".", "..", LOCK_NAME, MANIFEST_NAME):
             continue
@@ -107,20 +104,30 @@ def _remove_previous_outputs(folder: Path) -> None:
         else:
             with contextlib.suppress(OSError):
                 path.unlink()
-    manifest.unlink(missing_ok=True)
+    (folder / MANIFEST_NAME).unlink(missing_ok=True)
 
 
-def _write_manifest(folder: Path, written: list[Path]) -> None:
+def _manifest_names(folder: Path) -> list[str]:
+    manifest = folder / MANIFEST_NAME
+    if not manifest.is_file():
+        return []
+    return manifest.read_text(encoding="utf-8", errors="replace").splitlines()
+
+
+def _write_manifest(folder: Path, written: list[Path], earlier=()) -> None:
     names = sorted({p.resolve().relative_to(folder.resolve()).parts[0] for p in written
-                    if p.resolve().is_relative_to(folder.resolve())} - {MANIFEST_NAME})
+                    if p.resolve().is_relative_to(folder.resolve())}.union(earlier)
+                   - {MANIFEST_NAME, ""})
     files.atomic_write(folder / MANIFEST_NAME, lambda temp: Path(temp).write_text(
         "".join(f"{name}\n" for name in names), encoding="utf-8"))
 
 
 @contextlib.contextmanager
-def output_folder(out, inputs=()):
+def output_folder(out, inputs=(), keep_previous: bool = False):
     """Check ``out`` (see :func:`check`), create it, hold its lock while the run writes.
 
+    With ``keep_previous``, what the folder's earlier runs wrote stays and the manifest
+    lists it with this run's files (views saved one by one add up in one folder).
     Yields the folder as a :class:`Path`.
     """
     folder = check(out, inputs)
@@ -135,11 +142,13 @@ def output_folder(out, inputs=()):
     written: list[Path] = []
     try:
         _remove_stale_temporaries(folder)
-        _remove_previous_outputs(folder)
+        earlier = _manifest_names(folder) if keep_previous else []
+        if not keep_previous:
+            _remove_previous_outputs(folder)
         files.WRITTEN = written
         yield folder
         files.WRITTEN = None
-        _write_manifest(folder, written)
+        _write_manifest(folder, written, earlier)
     except InputError:
         if created is not None:
             lock.unlink(missing_ok=True)

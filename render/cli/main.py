@@ -14,7 +14,7 @@ import re
 import sys
 
 from cloakview.optics.errors import InputError
-from cloakview.render.cli import frames, motion, planning, report
+from cloakview.render.cli import frames, live, motion, planning, report
 from cloakview.render.cli.options import Parser, UsageError
 from cloakview.render.files import program_version
 from cloakview.render.sweeps.jobs import JobsFailed
@@ -35,7 +35,7 @@ def build_parser() -> Parser:
                         help="print the installed version and exit")
     commands = parser.add_subparsers(dest="command", required=True, parser_class=Parser,
                                      metavar="COMMAND")
-    for module in (frames, motion, planning, report):
+    for module in (frames, motion, planning, report, live):
         module.add_commands(commands)
     return parser
 
