@@ -132,10 +132,13 @@ def test_frames_for_the_scene_viewers_carry_their_verdicts(live):
     status, works = _post(url + "api/frame", {**EYE_PORT, "quality": "full"})
     assert status == 200 and works["metrics"]["verdict_class"] == "works"
     assert set(works["views"]) == {"cloaked", "naked", "reference", "difference", "vanish"}
-    status, aside = _post(url + "api/frame", SIDE_STEP)
-    assert status == 200 and aside["quality"] == "preview"
-    assert aside["metrics"]["verdict_class"] != "works"
-    assert aside["size_px"] == [400, 225] and aside["wavelengths_nm"] == [587.56]
+    status, aside = _post(url + "api/frame", {**SIDE_STEP, "quality": "full"})
+    assert status == 200 and aside["metrics"]["verdict_class"] != "works"
+    status, preview = _post(url + "api/frame", {**SIDE_STEP, "view": "vanish"})
+    assert status == 200 and preview["metrics"] is None  # a picture only
+    assert preview["views"] == ["vanish"] and preview["size_px"] == [400, 225]
+    assert preview["wavelengths_nm"] == [587.56]
+    assert preview["picture"].startswith("data:image/jpeg;base64,/9j/")  # JPEG's FF D8 FF
     status, kind, data = _get(url + f"api/frame/{works['frame']}/vanish.jpg")
     assert status == 200 and kind == "image/jpeg" and data[:3] == b"\xff\xd8\xff"
 
@@ -147,7 +150,7 @@ def test_a_full_frame_equals_the_render_command_at_that_eye(live, tmp_path):
     assert status == 200
     [same] = render(SCENE, eye_mm=answer["eye_mm"], look_at_mm=session.base.look_at_mm,
                     views=("cloaked",))
-    kept = session._frames[answer["frame"]].render
+    kept = session._frames[answer["frame"]]
     np.testing.assert_array_equal(kept.images["cloaked"], same.images["cloaked"])
     assert answer["metrics"]["verdict"] == same.metrics["verdict"]
 

@@ -21,11 +21,13 @@ References
 from __future__ import annotations
 
 import math
+import os
 
 import cv2
 import numpy as np
 from cloakview.optics.trace import MOUNT, PANEL, PASSED
 from cloakview.render.frame.mapper import RayMap
+from cloakview.render.frame.sampler_kernel import mip_sample, pack_pyramid
 from cloakview.render.scene.model import Scene
 
 _REMAP_COLUMNS = 4096
@@ -37,15 +39,37 @@ _TUBE_DEPTH_MM = 600.0
 
 
 class TexturePyramids:
-    """Mip pyramids of the scene's layer pictures, built once per scene [2]."""
+    """Mip pyramids of the scene's layer pictures, built once per scene [2].
+
+    Each pyramid's levels lie in one flat buffer (``levels`` holds views of it), the
+    form the compiled sampler reads.
+    """
 
     def __init__(self, scene: Scene):
         self.levels = {}
+        self._packed = {}
         for layer in scene.layers:
             level = [layer.texture]
             while min(level[-1].shape[:2]) >= 16 and len(level) < 12:
                 level.append(cv2.pyrDown(level[-1]))
-            self.levels[layer.name] = level
+            flat, offsets, heights, widths = pack_pyramid(level)
+            self._packed[layer.name] = (flat, offsets, heights, widths)
+            self.levels[layer.name] = [
+                flat[o:o + h * w * 4].reshape(h, w, 4)
+                for o, h, w in zip(offsets, heights, widths, strict=True)]
+
+    def sample(self, name: str, u: np.ndarray, v: np.ndarray, level: np.ndarray) -> np.ndarray:
+        """Premultiplied RGBA (N, 4) of layer ``name`` at texel coordinates, mip-mapped.
+
+        The compiled sampler, unless ``CLOAKVIEW_TRACER=numpy`` asks for the reference
+        path throughout (then :func:`sample_layer`; the two agree to float32 rounding).
+        """
+        if os.environ.get("CLOAKVIEW_TRACER", "").lower() == "numpy":
+            return sample_layer(self.levels[name], u, v, level)
+        out = np.empty((len(u), 4), np.float32)
+        if len(u):
+            mip_sample(*self._packed[name], u, v, level, out)
+        return out
 
 
 def _remap(texture: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
@@ -94,7 +118,10 @@ def footprint_levels(u: np.ndarray, v: np.ndarray, grid_shape) -> np.ndarray:
 
 def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
                  level: np.ndarray) -> np.ndarray:
-    """Premultiplied RGBA (N, 4) of the rays at texture coordinates ``u``, ``v``.
+    """Premultiplied RGBA (N, 4) of the rays at texture coordinates ``u``, ``v`` (reference).
+
+    OpenCV's bilinear ``remap`` per level and numpy gathers; the compiled
+    :func:`~cloakview.render.frame.sampler_kernel.mip_sample` does the same in one pass.
 
     ``level`` is each ray's mip level (see :func:`footprint_levels`), blended between
     the two nearest pyramid levels [2].
@@ -176,7 +203,7 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
         name = hit.layer.name
         used[name] = levels[name] if levels is not None else footprint_levels(
             hit.u, hit.v, grid_shape)
-        rgba = sample_layer(pyramids.levels[name], hit.u, hit.v, used[name])
+        rgba = pyramids.sample(name, hit.u, hit.v, used[name])
         rgba *= np.float32(hit.layer.opacity)
         alpha = rgba[:, 3]
         tp = hit.throughput.astype(np.float32)

@@ -134,6 +134,10 @@ def bind(host: str, port: int) -> socket.socket:
         family = socket.getaddrinfo(host, port, type=socket.SOCK_STREAM)[0][0]
         sock = socket.socket(family, socket.SOCK_STREAM)
         sock.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
+        # Accepted connections inherit this on Linux: without it, a small answer written
+        # in two parts (headers, body) waits for the page's delayed acknowledgement of the
+        # first, about 40 ms per request on a kept-alive connection (measured here).
+        sock.setsockopt(socket.IPPROTO_TCP, socket.TCP_NODELAY, 1)
         sock.bind((host, port))
     except OSError as error:
         raise InputError("host", f"{host}:{port}",

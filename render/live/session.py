@@ -6,8 +6,8 @@ asked for). Frames are asked for by a visitor's eye point on the floor plan: sid
 offset from the axis, distance in front of the front panel and eye height [mm], the
 device's lenses (the scene's own or two inventory ids), a quality and a view:
 
-- ``preview``: the design wavelength only, no supersampling, a small picture, with the
-  numbers measured on it (what the page shows while the eye is dragged);
+- ``preview``: the requested view's picture alone, at the design wavelength, without
+  supersampling, small, and no numbers (what the page shows while the eye is dragged);
 - ``full``: the scene's wavelengths and supersampling at the full picture size, every view
   (what the page shows once the pointer rests, and what a saved view holds).
 
@@ -19,20 +19,24 @@ arrives, so the picture never lags behind the pointer.
 
 from __future__ import annotations
 
+import base64
 import dataclasses
 import itertools
 import json
 import math
 import re
 import threading
+import time
 from collections import OrderedDict
 from concurrent.futures import Future
 from dataclasses import dataclass
 from pathlib import Path
 
 import cv2
+import numba
 import numpy as np
 from cloakview.optics.errors import InputError
+from cloakview.optics.materials import nearest_to_d_line
 from cloakview.render import outfolder
 from cloakview.render.api.frames import custom_viewer, scene_from
 from cloakview.render.cautions import CAUTIONS
@@ -40,7 +44,7 @@ from cloakview.render.files import read_text, require_file, write_text
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.metrics import CLASSES, WORKS_DEFINITION
 from cloakview.render.frame.outputs import write_viewer
-from cloakview.render.frame.views import VIEW_NAMES, ViewerRender, render_viewer
+from cloakview.render.frame.views import VIEW_NAMES, render_picture, render_viewer
 from cloakview.render.planning.inventory import Item, load_inventory
 from cloakview.render.proposal.charts import CLASS_COLOURS, CLASS_MEANING
 from cloakview.render.scene.model import Scene, Viewer, glass_extent
@@ -84,11 +88,17 @@ class FrameRequest:
 
 @dataclass
 class LiveFrame:
-    """A finished render: its number, request, pictures (8-bit sRGB) and numbers."""
+    """A finished render: its number, request, viewer, pictures (8-bit sRGB), numbers.
+
+    ``metrics`` is None for a preview (a picture only, made as fast as it can be).
+    """
 
     number: int
     request: FrameRequest
-    render: ViewerRender
+    viewer: Viewer
+    images: dict[str, np.ndarray]
+    metrics: dict | None
+    seconds: float
     jpegs: dict[str, bytes] = dataclasses.field(default_factory=dict)
 
 
@@ -325,17 +335,30 @@ class LiveSession:
                 scene.settings.supersample)
 
     def render(self, request: FrameRequest, abandon=None) -> LiveFrame:
-        """Render a request; ``abandon()`` true between traced views stops it (Superseded)."""
+        """Render a request; ``abandon()`` true between traced views stops it (Superseded).
+
+        A preview is the requested view's picture alone, traced with one compiled thread
+        fewer than the machine has, so the browser keeps a core to draw with; a full frame
+        is every view with its metrics, on every thread.
+        """
+        started = time.perf_counter()
         scene, viewer, supersample = self.viewer_for(request)
-        views = (request.view,) if request.quality == "preview" else VIEW_NAMES
+        if request.quality == "preview":
+            numba.set_num_threads(max(1, numba.config.NUMBA_NUM_THREADS - 1))
+            images = {request.view: render_picture(scene, viewer, self.pyramids,
+                                                   request.view, supersample)}
+            metrics = None
+        else:
+            def between_views(_label):
+                if abandon is not None and abandon():
+                    raise Superseded()
 
-        def between_views(_label):
-            if abandon is not None and abandon():
-                raise Superseded()
-
-        result = render_viewer(scene, viewer, self.pyramids, views, supersample,
-                               progress=between_views)
-        frame = LiveFrame(next(self._numbers), request, result)
+            numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
+            result = render_viewer(scene, viewer, self.pyramids, VIEW_NAMES, supersample,
+                                   progress=between_views)
+            images, metrics = result.images, result.metrics
+        frame = LiveFrame(next(self._numbers), request, viewer, images, metrics,
+                          time.perf_counter() - started)
         with self._lock:
             self._frames[frame.number] = frame
             while len(self._frames) > KEPT_RENDERS:
@@ -346,23 +369,33 @@ class LiveSession:
         """The JPEG of one view of a kept render (None if it is gone or lacks that view)."""
         with self._lock:
             frame = self._frames.get(number)
-        if frame is None or view not in frame.render.images:
+        if frame is None or view not in frame.images:
             return None
         if view not in frame.jpegs:
-            frame.jpegs[view] = jpeg_bytes(frame.render.images[view])
+            frame.jpegs[view] = jpeg_bytes(frame.images[view])
         return frame.jpegs[view]
 
     def answer(self, frame: LiveFrame) -> dict:
-        """A finished frame as the page's JSON: its number, views, eye and numbers."""
-        metrics = frame.render.metrics
+        """A finished frame as the page's JSON: number, views, eye, numbers, picture.
+
+        The requested view's JPEG comes inline (a data URL), so the page needs no second
+        request before it shows.
+        """
+        view = frame.request.view
+        picture = base64.b64encode(self.jpeg(frame.number, view)).decode("ascii")
+        scene = self.layout(frame.request.outer, frame.request.inner)
         return {"frame": frame.number, "quality": frame.request.quality,
-                "views": list(frame.render.images), "request": dataclasses.asdict(frame.request),
-                "eye_mm": list(frame.render.viewer.eye_mm),
-                "size_px": [frame.render.viewer.width_px, frame.render.viewer.height_px],
-                "seconds": round(frame.render.seconds, 4),
-                "metrics": {key: value for key, value in metrics.items()
-                            if key not in ("eye_mm", "wavelengths_nm")},
-                "wavelengths_nm": metrics["wavelengths_nm"]}
+                "views": list(frame.images), "request": dataclasses.asdict(frame.request),
+                "picture": f"data:image/jpeg;base64,{picture}",
+                "eye_mm": list(frame.viewer.eye_mm),
+                "size_px": [frame.viewer.width_px, frame.viewer.height_px],
+                "seconds": round(frame.seconds, 4),
+                "wavelengths_nm": ([nearest_to_d_line(scene.settings.wavelengths_nm)]
+                                   if frame.request.quality == "preview"
+                                   else list(scene.settings.wavelengths_nm)),
+                "metrics": None if frame.metrics is None else {
+                    key: value for key, value in frame.metrics.items()
+                    if key not in ("eye_mm", "wavelengths_nm")}}
 
     def warm_up(self) -> None:
         """Render the base viewer once at each quality, so the first frame is not slow."""
@@ -396,9 +429,10 @@ class LiveSession:
         request = dataclasses.replace(request, quality="full")
         with self._save_lock:
             name = self._free_name(name)
-            frame = self.render(request)
-            result = frame.render
-            result.viewer = dataclasses.replace(result.viewer, name=name)
+            scene, viewer, supersample = self.viewer_for(request)
+            numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
+            result = render_viewer(scene, dataclasses.replace(viewer, name=name),
+                                   self.pyramids, VIEW_NAMES, supersample)
             lenses = ({"outer": request.outer, "inner": request.inner}
                       if request.outer != SCENE_LENSES else "the scene file's own")
             entry = self.viewer_entry(result.viewer, lenses)
@@ -418,7 +452,7 @@ class LiveSession:
                 written.append(toml)
         return {"name": name, "folder": str(folder / name),
                 "written": [str(p) for p in written], "viewer_entry": entry,
-                "frame": frame.number, "verdict": result.metrics["verdict"]}
+                "verdict": result.metrics["verdict"]}
 
     def viewer_entry(self, viewer: Viewer, lenses) -> str:
         """A ``[[viewer]]`` table for the scene file (TOML) of a saved view."""

@@ -7,7 +7,7 @@
 const SVG = "http://www.w3.org/2000/svg";
 const NUDGE_MM = 5;          // one arrow-key press
 const BIG_NUDGE_MM = 50;     // with Shift
-const REST_MS = 250;         // no pointer movement for this long: ask for the full frame
+const REST_MS = 250;         // no movement for this long: ask for the full frame
 const EYE_RADIUS_PX = 7;
 
 const app = {
@@ -16,9 +16,10 @@ const app = {
   outer: "scene", inner: "scene", view: "cloaked",
   camera: {cx: 0, cz: 0, mmPerPx: 10},
   dragging: false, restTimer: null,
-  seq: 0, wanted: null, previewInFlight: false, shownSeq: 0,
+  seq: 0, wanted: null, previewInFlight: null, shownSeq: 0,
   changedAt: new Map(),           // seq -> time of the change that asked for it
-  last: null,                     // the last answer painted
+  painted: null,                  // the last answer painted
+  last: null,                     // the last full-quality answer painted
   stats: {painted: []},           // for the latency benchmark and the tests
 };
 window.cloakview = app;
@@ -98,7 +99,40 @@ function nearestZoneHeight() {
   return best;
 }
 
+let drawnKey = null;     // what the plan's fixed layer was last drawn for
+let drawQueued = false;
+
 function drawPlan() {
+  const near = nearestZoneHeight();
+  const key = JSON.stringify([app.camera, planSize(), app.outer, app.inner, near && near.h]);
+  if (key !== drawnKey) {
+    drawFixed();
+    drawnKey = key;
+  }
+  drawEye();
+}
+
+function queueDraw() {
+  // Pointer moves come faster than the screen refreshes: draw once per animation frame.
+  if (drawQueued) return;
+  drawQueued = true;
+  requestAnimationFrame(() => { drawQueued = false; drawPlan(); });
+}
+
+function drawEye() {
+  const layer = $("eye-layer"), p = app.plan, k = app.camera.mmPerPx;
+  const stroke = {"vector-effect": "non-scaling-stroke"};
+  const ez = eyeZ(), ex = app.eye.lateral_mm, pz = -p.panel_z_mm;
+  layer.replaceChildren();
+  for (const r of [-p.hole_radius_mm, p.hole_radius_mm]) {
+    el("line", {x1: ex, y1: -ez, x2: r, y2: pz, stroke: "var(--eye)", "stroke-width": 1,
+      "stroke-dasharray": "4 3", ...stroke}, layer);
+  }
+  el("circle", {id: "eye-marker", cx: ex, cy: -ez, r: EYE_RADIUS_PX * k, fill: "var(--eye)",
+    stroke: "#fff", "stroke-width": 2, ...stroke, style: "cursor: grab"}, layer);
+}
+
+function drawFixed() {
   const svg = $("plan"), s = planSize(), c = app.camera, p = app.plan, k = c.mmPerPx;
   svg.replaceChildren();
   svg.setAttribute("viewBox",
@@ -170,14 +204,7 @@ function drawPlan() {
       "text-anchor": "end"}, svg);
     t.textContent = gr.names.join(", ");
   }
-  // sight lines from the eye to the rim of the hole, and the eye itself
-  const ez = eyeZ(), ex = app.eye.lateral_mm;
-  for (const r of [-p.hole_radius_mm, p.hole_radius_mm]) {
-    el("line", {x1: ex, y1: -ez, x2: r, y2: pz, stroke: "var(--eye)", "stroke-width": 1,
-      "stroke-dasharray": "4 3", ...stroke}, svg);
-  }
-  el("circle", {id: "eye-marker", cx: ex, cy: -ez, r: EYE_RADIUS_PX * k, fill: "var(--eye)",
-    stroke: "#fff", "stroke-width": 2, ...stroke, style: "cursor: grab"}, svg);
+  el("g", {id: "eye-layer"}, svg);  // the sight lines and the eye: see drawEye
   // scale bar
   const bar = niceStep(120 * k);
   const bx = c.cx - s.w * k / 2 + 12 * k, by = -(c.cz - s.h * k / 2) - 14 * k;
@@ -225,12 +252,11 @@ function showEye() {
 function eyeChanged(event) {
   keepEyeInView();
   showEye();
-  drawPlan();
+  queueDraw();
   const seq = ++app.seq;
   app.changedAt.set(seq, event && event.timeStamp ? event.timeStamp : performance.now());
   ask("preview", seq);
-  clearTimeout(app.restTimer);
-  if (!app.dragging) scheduleFull();
+  scheduleFull();
 }
 
 function scheduleFull() {
@@ -259,11 +285,15 @@ async function pump() {
   const job = app.wanted;
   app.wanted = null;
   const preview = job.body.quality === "preview";
-  if (preview) app.previewInFlight = true;
+  if (preview) app.previewInFlight = job;
   $("status").textContent = preview ? "rendering preview..." : "rendering full quality...";
   try {
+    job.sentAt = performance.now();
     const answer = await getJSON("/api/frame", {method: "POST",
       headers: {"Content-Type": "application/json"}, body: JSON.stringify(job.body)});
+    job.answeredAt = performance.now();
+    // The next preview may go while this one's picture is fetched and decoded.
+    if (app.previewInFlight === job) { app.previewInFlight = null; pump(); }
     if (!answer.superseded && job.seq >= app.shownSeq) {
       await paint(answer, job);
     }
@@ -272,25 +302,38 @@ async function pump() {
     showError(error.message);
     $("status").textContent = "request refused";
   } finally {
-    if (preview) app.previewInFlight = false;
+    if (app.previewInFlight === job) app.previewInFlight = null;
     pump();
   }
 }
 
+async function showPicture(url) {
+  // Decode off screen, then swap: the visible picture never shows a half-loaded frame.
+  const picture = new Image();
+  picture.alt = $("view").alt;
+  picture.src = url;
+  await picture.decode();
+  return picture;
+}
+
 async function paint(answer, job) {
-  const view = answer.views.includes(app.view) ? app.view : answer.views[0];
-  const img = $("view");
-  img.src = `/api/frame/${answer.frame}/${view}.jpg`;
-  await img.decode();
+  const picture = await showPicture(answer.picture);
+  const decodedAt = performance.now();
   if (job.seq < app.shownSeq) return;  // a newer frame was painted meanwhile
+  picture.id = "view";
+  $("view").replaceWith(picture);
   app.shownSeq = job.seq;
   for (const seq of app.changedAt.keys()) if (seq < job.seq) app.changedAt.delete(seq);
-  app.last = answer;
+  app.painted = answer;
+  if (answer.quality === "full") app.last = answer;
   showNumbers(answer);
   requestAnimationFrame(() => {
     const now = performance.now();
+    const changed = app.changedAt.get(job.seq) || now;
     app.stats.painted.push({seq: job.seq, quality: answer.quality, frame: answer.frame,
-      latency_ms: now - (app.changedAt.get(job.seq) || now), server_s: answer.seconds});
+      latency_ms: now - changed, server_s: answer.seconds,
+      waited_ms: job.sentAt - changed, answer_ms: job.answeredAt - job.sentAt,
+      picture_ms: decodedAt - job.answeredAt, paint_ms: now - decodedAt});
   });
 }
 
@@ -310,6 +353,14 @@ function showNumbers(answer) {
     : `preview: ${answer.size_px[0]} x ${answer.size_px[1]}, 1 wavelength, ` +
       `${(1000 * answer.seconds).toFixed(0)} ms`;
   badge.className = full ? "badge full" : "badge";
+  const panel = $("sight");
+  if (!m) {
+    // A preview is a picture only: the numbers wait for the pointer to rest.
+    panel.classList.add("moving");
+    $("status").textContent = "preview (numbers and full quality when the pointer rests)";
+    return;
+  }
+  panel.classList.remove("moving");
   const verdict = $("verdict");
   verdict.textContent = m.verdict;
   verdict.dataset.verdictClass = m.verdict_class;
@@ -340,7 +391,7 @@ function showNumbers(answer) {
   advice.replaceChildren(...(m.advice || []).map((line) => {
     const li = document.createElement("li"); li.textContent = line; return li;
   }));
-  $("status").textContent = full ? "full quality" : "preview (full quality when the pointer rests)";
+  $("status").textContent = "full quality";
 }
 
 // ---- controls ------------------------------------------------------------------------
@@ -492,7 +543,6 @@ function wirePlan() {
   svg.addEventListener("pointerdown", (event) => {
     svg.setPointerCapture(event.pointerId);
     app.dragging = true;
-    clearTimeout(app.restTimer);
     moveEyeTo(planPoint(event), event);
   });
   svg.addEventListener("pointermove", (event) => {
@@ -501,7 +551,8 @@ function wirePlan() {
   const release = () => {
     if (!app.dragging) return;
     app.dragging = false;
-    scheduleFull();
+    clearTimeout(app.restTimer);
+    ask("full", app.seq);  // let go: no need to wait for the pointer to rest
   };
   svg.addEventListener("pointerup", release);
   svg.addEventListener("pointercancel", release);
@@ -531,11 +582,7 @@ function zoomAround(point, factor) {
 }
 
 function wireControls() {
-  $("height-slider").addEventListener("input", (e) => {
-    app.dragging = true;
-    setHeight(Number(e.target.value), e);
-  });
-  $("height-slider").addEventListener("change", () => { app.dragging = false; scheduleFull(); });
+  $("height-slider").addEventListener("input", (e) => setHeight(Number(e.target.value), e));
   for (const [id, key] of [["lateral", "lateral_mm"], ["distance", "distance_mm"],
     ["height", "height_mm"]]) {
     $(id).addEventListener("change", (e) => {
@@ -551,10 +598,15 @@ function wireControls() {
   for (const radio of document.querySelectorAll("input[name=view]")) {
     radio.addEventListener("change", (e) => {
       app.view = e.target.value;
-      if (app.last && app.last.views.includes(app.view)) {
-        $("view").src = `/api/frame/${app.last.frame}/${app.view}.jpg`;
+      const shown = app.painted;
+      if (shown && shown.quality === "full" && shown.views.includes(app.view)) {
+        showPicture(`/api/frame/${shown.frame}/${app.view}.jpg`).then((picture) => {
+          picture.id = "view";
+          $("view").replaceWith(picture);
+        }).catch((error) => showError(error.message));
       } else {
-        ask("full", app.seq);
+        ask("preview", app.seq);
+        scheduleFull();
       }
       showViewHelp();
     });
