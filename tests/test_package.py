@@ -54,6 +54,8 @@ def test_the_wheel_installs_only_cloakview_at_the_top(tmp_path):
              f"assert cloakview.__file__.startswith({str(site)!r}), cloakview.__file__; "
              "assert cloakview.sample_scenes.path('inventory.csv').is_file(); "
              "assert cloakview.sample_scenes.scene_path('gallery').is_file(); "
+             "import importlib.resources as r; page = r.files('cloakview.render.live') / 'page'; "
+             "assert {p.name for p in page.iterdir()} >= {'index.html', 'live.js', 'live.css'}; "
              "print(pydoc.render_doc(cloakview, renderer=pydoc.plaintext))")
     empty = tmp_path / "empty"
     empty.mkdir()

@@ -325,7 +325,8 @@ class LiveSession:
         """The scene, viewer and supersampling a request is rendered with."""
         scene = self.layout(request.outer, request.inner)
         eye = eye_point(scene, request.lateral_mm, request.distance_mm, request.height_mm)
-        viewer = custom_viewer(scene, eye, self.base.look_at_mm, self.base, key="distance_mm")
+        viewer = dataclasses.replace(custom_viewer(scene, eye, self.base.look_at_mm, self.base,
+                                                   key="distance_mm"), name="visitor")
         if request.quality == "preview":
             width, height = self.preview_size_px
             return (scene.at_design_wavelength(),

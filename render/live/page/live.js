@@ -219,10 +219,19 @@ function drawFixed() {
   } else if (lensesSwapped) {
     note.textContent = "Sight-line map hidden: it was computed for the scene's own lenses.";
   } else {
-    note.textContent = `Shaded: sight-line map at eye height ${near.h.toFixed(0)} mm ` +
-      `(${near.name}), nearest to the eye's height; green = works.` +
-      (zone.matches ? "" : ` Computed for ${zone.computed_for || "an unknown scene file"}, ` +
-      "not this scene file.");
+    const named = near.name === `${near.h.toFixed(0)} mm` ? "" : ` (${near.name})`;
+    note.replaceChildren(`Shaded: sight-line map at eye height ${near.h.toFixed(0)} mm` +
+      `${named}, the computed height nearest the eye's.` +
+      (zone.matches ? " " : ` Computed for ${zone.computed_for || "an unknown scene file"}, ` +
+      "not this scene file. "));
+    for (const [name, cls] of Object.entries(app.scene.classes)) {
+      const key = document.createElement("span");
+      key.className = "key";
+      key.title = cls.meaning;
+      key.style.setProperty("--swatch", cls.colour);
+      key.textContent = name;
+      note.append(key);
+    }
   }
 }
 
