@@ -26,8 +26,13 @@ import os
 import cv2
 import numpy as np
 from cloakview.optics.trace import MOUNT, PANEL, PASSED
+from cloakview.render.frame.composite_kernel import (
+    add_housing,
+    mip_sample,
+    pack_pyramid,
+    sample_over,
+)
 from cloakview.render.frame.mapper import RayMap
-from cloakview.render.frame.sampler_kernel import mip_sample, pack_pyramid
 from cloakview.render.scene.model import Scene
 
 _REMAP_COLUMNS = 4096
@@ -58,18 +63,31 @@ class TexturePyramids:
                 flat[o:o + h * w * 4].reshape(h, w, 4)
                 for o, h, w in zip(offsets, heights, widths, strict=True)]
 
+    def packed(self, name: str):
+        """Layer ``name``'s pyramid as the compiled sampler reads it (flat, offsets, sizes)."""
+        return self._packed[name]
+
     def sample(self, name: str, u: np.ndarray, v: np.ndarray, level: np.ndarray) -> np.ndarray:
         """Premultiplied RGBA (N, 4) of layer ``name`` at texel coordinates, mip-mapped.
 
-        The compiled sampler, unless ``CLOAKVIEW_TRACER=numpy`` asks for the reference
-        path throughout (then :func:`sample_layer`; the two agree to float32 rounding).
+        The compiled sampler, unless :func:`reference_path` (then :func:`sample_layer`;
+        the two agree to float32 rounding).
         """
-        if os.environ.get("CLOAKVIEW_TRACER", "").lower() == "numpy":
+        if reference_path():
             return sample_layer(self.levels[name], u, v, level)
         out = np.empty((len(u), 4), np.float32)
         if len(u):
             mip_sample(*self._packed[name], u, v, level, out)
         return out
+
+
+def reference_path() -> bool:
+    """Whether ``CLOAKVIEW_TRACER=numpy`` asks for the reference path throughout.
+
+    That is the numpy tracer, the OpenCV sampler and numpy blending instead of the
+    compiled kernels.
+    """
+    return os.environ.get("CLOAKVIEW_TRACER", "").lower() == "numpy"
 
 
 def _remap(texture: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
@@ -121,7 +139,7 @@ def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
     """Premultiplied RGBA (N, 4) of the rays at texture coordinates ``u``, ``v`` (reference).
 
     OpenCV's bilinear ``remap`` per level and numpy gathers; the compiled
-    :func:`~cloakview.render.frame.sampler_kernel.mip_sample` does the same in one pass.
+    :func:`~cloakview.render.frame.composite_kernel.mip_sample` does the same in one pass.
 
     ``level`` is each ray's mip level (see :func:`footprint_levels`), blended between
     the two nearest pyramid levels [2].
@@ -149,6 +167,12 @@ def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
     return out
 
 
+def _palette(scene: Scene) -> np.ndarray:
+    """Housing colours (linear RGB, float32): room, panel, tube, mount."""
+    return np.stack([scene.settings.backdrop_rgb, scene.panel_rgb, scene.tube_rgb,
+                     scene.tube_rgb * 1.25]).astype(np.float32)
+
+
 def _housing_colour(scene: Scene, ray_map: RayMap) -> np.ndarray:
     """Linear RGB (N, 3) of what each ray finally struck (room colour if nothing).
 
@@ -156,8 +180,7 @@ def _housing_colour(scene: Scene, ray_map: RayMap) -> np.ndarray:
     Lambert shading of the tube's outside, light falling off with depth inside.
     """
     r = ray_map.result
-    palette = np.stack([scene.settings.backdrop_rgb, scene.panel_rgb, scene.tube_rgb,
-                        scene.tube_rgb * 1.25]).astype(np.float32)
+    palette = _palette(scene)
     entry = np.zeros(len(r.fate), np.intp)
     shade = np.ones(len(r.fate), np.float32)
     panel = r.fate == PANEL
@@ -203,6 +226,11 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
         name = hit.layer.name
         used[name] = levels[name] if levels is not None else footprint_levels(
             hit.u, hit.v, grid_shape)
+        if not reference_path() and n:
+            sample_over(*pyramids.packed(name), hit.u, hit.v, used[name],
+                        np.float32(hit.layer.opacity), hit.throughput,
+                        hit.layer.role == "hidden", rgb, clear, hidden)
+            continue
         rgba = pyramids.sample(name, hit.u, hit.v, used[name])
         rgba *= np.float32(hit.layer.opacity)
         alpha = rgba[:, 3]
@@ -212,7 +240,14 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
         if hit.layer.role == "hidden":
             hidden += clear * alpha
         clear *= 1.0 - alpha
-    rgb += clear[:, None] * _housing_colour(scene, ray_map)
+    if reference_path() or not n:
+        rgb += clear[:, None] * _housing_colour(scene, ray_map)
+    else:
+        r = ray_map.result
+        add_housing(r.fate, r.entered, r.x, r.y, r.z, r.throughput, _palette(scene), clear,
+                    rgb, np.array([PASSED, PANEL, MOUNT]), np.array([
+                        _LIGHT[0], _LIGHT[1], _AMBIENT + (1 - _AMBIENT) * max(0.0, -_LIGHT[2]),
+                        _AMBIENT, scene.housing.panel_z_mm, _TUBE_DEPTH_MM]))
     return rgb, hidden, used
 
 

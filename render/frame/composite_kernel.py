@@ -1,0 +1,161 @@
+"""Compiled compositing: texture sampling, the over operator and the housing colour.
+
+Each kernel is one pass over the rays, with no gathers or scatters; the numpy and OpenCV
+code in :mod:`cloakview.render.frame.composite` stays the reference.
+
+:func:`mip_sample` does what :func:`cloakview.render.frame.composite.sample_layer` does
+with OpenCV and numpy (that stays the reference and the tests hold the two equal):
+each ray's colour is the bilinear sample of the two pyramid levels nearest its mip level,
+blended by the distance to each [1]. Bilinear weights and borders are those of OpenCV's
+``remap`` with ``INTER_LINEAR``, float maps and ``BORDER_CONSTANT`` 0: pixels off the
+picture count as transparent black [2].
+
+References
+----------
+.. [1] L. Williams, "Pyramidal parametrics", SIGGRAPH 1983, Computer Graphics 17(3),
+   1-11 (mip-mapping, trilinear blending between levels).
+.. [2] OpenCV documentation, "Geometric Image Transformations: remap".
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+
+
+def pack_pyramid(levels: list[np.ndarray]):
+    """One flat float32 buffer of all levels (H, W, 4) and each level's offset and size."""
+    sizes = np.array([level.shape[:2] for level in levels], np.int64)
+    offsets = np.concatenate([[0], np.cumsum(sizes[:, 0] * sizes[:, 1] * 4)[:-1]])
+    flat = np.concatenate([np.ascontiguousarray(level, np.float32).reshape(-1)
+                           for level in levels])
+    return flat, offsets.astype(np.int64), sizes[:, 0].copy(), sizes[:, 1].copy()
+
+
+@numba.njit(cache=True, inline="always")
+def _corner(flat, offset, height, width, tx, ty, w, acc):
+    """``acc`` (4 float32) plus ``w`` times the texel at (tx, ty); 0 off the picture."""
+    if 0 <= tx < width and 0 <= ty < height:
+        base = offset + (ty * width + tx) * 4
+        return (acc[0] + w * flat[base], acc[1] + w * flat[base + 1],
+                acc[2] + w * flat[base + 2], acc[3] + w * flat[base + 3])
+    return acc
+
+
+@numba.njit(cache=True, inline="always")
+def _sample_one(flat, offsets, heights, widths, u, v, level):
+    """The mip-mapped bilinear RGBA (4 float32) at texel (u, v), mip ``level``."""
+    top = len(offsets) - 1
+    half = np.float32(0.5)
+    one = np.float32(1.0)
+    zero = np.float32(0.0)
+    lv = min(max(np.float32(level), zero), np.float32(top))
+    k0 = int(math.floor(lv))
+    acc = (zero, zero, zero, zero)
+    for k in (k0, k0 + 1):
+        weight = one - np.float32(abs(lv - np.float32(k)))
+        if k > top or weight <= 0.0:
+            continue
+        # In float32, as the reference's maps are.
+        scale = np.float32(2.0 ** -k)
+        x = np.float32(np.float32(np.float32(u) + half) * scale) - half
+        y = np.float32(np.float32(np.float32(v) + half) * scale) - half
+        x0 = int(math.floor(x))
+        y0 = int(math.floor(y))
+        ax = np.float32(x - np.float32(x0))
+        ay = np.float32(y - np.float32(y0))
+        o, h, w = offsets[k], heights[k], widths[k]
+        acc = _corner(flat, o, h, w, x0, y0, weight * ((one - ax) * (one - ay)), acc)
+        acc = _corner(flat, o, h, w, x0 + 1, y0, weight * (ax * (one - ay)), acc)
+        acc = _corner(flat, o, h, w, x0, y0 + 1, weight * ((one - ax) * ay), acc)
+        acc = _corner(flat, o, h, w, x0 + 1, y0 + 1, weight * (ax * ay), acc)
+    return acc
+
+
+@numba.njit(parallel=True, cache=True)
+def mip_sample(flat, offsets, heights, widths, u, v, level, out):
+    """Premultiplied RGBA into ``out`` (N, 4) of rays at texel coordinates ``u``, ``v``.
+
+    ``level`` is each ray's mip level (0 = full size), clamped to the pyramid; rays whose
+    ``u`` is NaN (they missed the layer) get 0.
+    """
+    for i in numba.prange(len(u)):
+        if math.isnan(u[i]) or math.isnan(v[i]):
+            for c in range(4):
+                out[i, c] = 0.0
+            continue
+        rgba = _sample_one(flat, offsets, heights, widths, u[i], v[i], level[i])
+        for c in range(4):
+            out[i, c] = rgba[c]
+
+
+@numba.njit(parallel=True, cache=True)
+def sample_over(flat, offsets, heights, widths, u, v, level, opacity, throughput,
+                is_hidden, rgb, clear, hidden):
+    """Sample one layer and lay it over what is in front, in place (the "over" operator).
+
+    For each ray: the layer's premultiplied colour times ``opacity`` and the ray's
+    ``throughput`` (NaN counts as 0) is added to ``rgb`` weighted by ``clear`` (the light
+    the nearer layers let through); a hidden layer adds its coverage to ``hidden``;
+    ``clear`` is multiplied by one minus the layer's alpha [3].
+
+    References
+    ----------
+    .. [3] T. Porter and T. Duff, "Compositing digital images", SIGGRAPH 1984, Computer
+       Graphics 18(3), 253-259.
+    """
+    one = np.float32(1.0)
+    for i in numba.prange(len(u)):
+        if math.isnan(u[i]) or math.isnan(v[i]):
+            continue
+        rgba = _sample_one(flat, offsets, heights, widths, u[i], v[i], level[i])
+        alpha = rgba[3] * opacity
+        tp = np.float32(throughput[i])
+        if math.isnan(tp):
+            tp = np.float32(0.0)
+        seen = clear[i] * tp
+        for c in range(3):
+            rgb[i, c] += seen * (rgba[c] * opacity)
+        if is_hidden:
+            hidden[i] += clear[i] * alpha
+        clear[i] *= one - alpha
+
+
+@numba.njit(parallel=True, cache=True, error_model="numpy")
+def add_housing(fate, entered, x, y, z, throughput, palette, clear, rgb, codes, shading):
+    """Add to ``rgb`` the colour of what each ray finally struck, times ``clear``.
+
+    ``codes`` are the tracer's fates (passed, panel, mount); ``shading`` holds the light's
+    x and y components, the panel's shade, the ambient share, the panel's axial position
+    [mm] and the tube's fall-off depth [mm]. Palette rows: room, panel, tube, mount. The
+    arithmetic and its float32/float64 steps are those of the numpy reference
+    (``composite._housing_colour``).
+    """
+    passed, panel, mount = codes[0], codes[1], codes[2]
+    light_x, light_y, panel_shade, ambient, panel_z, depth_mm = (
+        shading[0], shading[1], shading[2], shading[3], shading[4], shading[5])
+    for i in numba.prange(len(fate)):
+        entry = 0
+        shade = np.float32(1.0)
+        if fate[i] == panel:
+            entry = 1
+            shade = np.float32(panel_shade)
+        elif fate[i] != passed:
+            if not entered[i]:
+                entry = 2
+                lambert = (x[i] * light_x + y[i] * light_y) / math.hypot(x[i], y[i])
+                if lambert < 0.0:
+                    lambert = 0.0
+                elif lambert > 1.0:
+                    lambert = 1.0
+                shade = np.float32(ambient + (1 - ambient) * lambert)
+            else:
+                entry = 3 if fate[i] == mount else 2
+                depth = max(z[i] - panel_z, 0.0)
+                shade = np.float32(ambient * 0.6 + (1 - ambient * 0.6)
+                                   * math.exp(-depth / depth_mm))
+            shade = np.float32(shade * throughput[i])
+        for c in range(3):
+            rgb[i, c] += clear[i] * (palette[entry, c] * shade)
