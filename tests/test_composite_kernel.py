@@ -4,7 +4,7 @@ import cv2
 import numpy as np
 import pytest
 from cloakview.render.frame.composite import sample_layer
-from cloakview.render.frame.composite_kernel import mip_sample, pack_pyramid
+from cloakview.render.frame.composite_kernel import pack_pyramid, sample_over
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -17,9 +17,12 @@ def _pyramid(rng, height, width):
 
 
 def _compiled(levels, u, v, level):
-    out = np.empty((len(u), 4), np.float32)
-    mip_sample(*pack_pyramid(levels), u, v, level, out)
-    return out
+    """The compiled sampler's RGBA: one layer laid over nothing (colour, 1 - light left)."""
+    rgb = np.zeros((len(u), 3), np.float32)
+    clear = np.ones(len(u), np.float32)
+    sample_over(*pack_pyramid(levels), u, v, level, np.float32(1.0), np.ones(len(u)), False,
+                rgb, clear, np.zeros(len(u), np.float32))
+    return np.concatenate([rgb, 1 - clear[:, None]], axis=1)
 
 
 @settings(max_examples=40, deadline=None)
@@ -67,8 +70,6 @@ def test_over_operator_in_one_pass():
     # colours, A over B = A + (1 - alpha_A) B. Two flat layers of alpha 0.25 and 0.5 over
     # an empty start give colour c1 + 0.75 c2 and leave 0.75 * 0.5 of the light clear;
     # the hidden layer (the second) covers 0.75 * 0.5 of the ray.
-    from cloakview.render.frame.composite_kernel import sample_over
-
     n = 5
     rgb = np.zeros((n, 3), np.float32)
     clear = np.ones(n, np.float32)

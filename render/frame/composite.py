@@ -26,12 +26,7 @@ import os
 import cv2
 import numpy as np
 from cloakview.optics.trace import MOUNT, PANEL, PASSED
-from cloakview.render.frame.composite_kernel import (
-    add_housing,
-    mip_sample,
-    pack_pyramid,
-    sample_over,
-)
+from cloakview.render.frame.composite_kernel import add_housing, pack_pyramid, sample_over
 from cloakview.render.frame.mapper import RayMap
 from cloakview.render.scene.model import Scene
 
@@ -66,19 +61,6 @@ class TexturePyramids:
     def packed(self, name: str):
         """Layer ``name``'s pyramid as the compiled sampler reads it (flat, offsets, sizes)."""
         return self._packed[name]
-
-    def sample(self, name: str, u: np.ndarray, v: np.ndarray, level: np.ndarray) -> np.ndarray:
-        """Premultiplied RGBA (N, 4) of layer ``name`` at texel coordinates, mip-mapped.
-
-        The compiled sampler, unless :func:`reference_path` (then :func:`sample_layer`;
-        the two agree to float32 rounding).
-        """
-        if reference_path():
-            return sample_layer(self.levels[name], u, v, level)
-        out = np.empty((len(u), 4), np.float32)
-        if len(u):
-            mip_sample(*self._packed[name], u, v, level, out)
-        return out
 
 
 def reference_path() -> bool:
@@ -139,7 +121,8 @@ def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
     """Premultiplied RGBA (N, 4) of the rays at texture coordinates ``u``, ``v`` (reference).
 
     OpenCV's bilinear ``remap`` per level and numpy gathers; the compiled
-    :func:`~cloakview.render.frame.composite_kernel.mip_sample` does the same in one pass.
+    :func:`~cloakview.render.frame.composite_kernel.sample_over` samples the same way in
+    one pass.
 
     ``level`` is each ray's mip level (see :func:`footprint_levels`), blended between
     the two nearest pyramid levels [2].
@@ -231,7 +214,7 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
                         np.float32(hit.layer.opacity), hit.throughput,
                         hit.layer.role == "hidden", rgb, clear, hidden)
             continue
-        rgba = pyramids.sample(name, hit.u, hit.v, used[name])
+        rgba = sample_layer(pyramids.levels[name], hit.u, hit.v, used[name])
         rgba *= np.float32(hit.layer.opacity)
         alpha = rgba[:, 3]
         tp = hit.throughput.astype(np.float32)

@@ -3,7 +3,7 @@
 Each kernel is one pass over the rays, with no gathers or scatters; the numpy and OpenCV
 code in :mod:`cloakview.render.frame.composite` stays the reference.
 
-:func:`mip_sample` does what :func:`cloakview.render.frame.composite.sample_layer` does
+:func:`sample_over` samples as :func:`cloakview.render.frame.composite.sample_layer` does
 with OpenCV and numpy (that stays the reference and the tests hold the two equal):
 each ray's colour is the bilinear sample of the two pyramid levels nearest its mip level,
 blended by the distance to each [1]. Bilinear weights and borders are those of OpenCV's
@@ -72,23 +72,6 @@ def _sample_one(flat, offsets, heights, widths, u, v, level):
         acc = _corner(flat, o, h, w, x0, y0 + 1, weight * ((one - ax) * ay), acc)
         acc = _corner(flat, o, h, w, x0 + 1, y0 + 1, weight * (ax * ay), acc)
     return acc
-
-
-@numba.njit(parallel=True, cache=True)
-def mip_sample(flat, offsets, heights, widths, u, v, level, out):
-    """Premultiplied RGBA into ``out`` (N, 4) of rays at texel coordinates ``u``, ``v``.
-
-    ``level`` is each ray's mip level (0 = full size), clamped to the pyramid; rays whose
-    ``u`` is NaN (they missed the layer) get 0.
-    """
-    for i in numba.prange(len(u)):
-        if math.isnan(u[i]) or math.isnan(v[i]):
-            for c in range(4):
-                out[i, c] = 0.0
-            continue
-        rgba = _sample_one(flat, offsets, heights, widths, u[i], v[i], level[i])
-        for c in range(4):
-            out[i, c] = rgba[c]
 
 
 @numba.njit(parallel=True, cache=True)

@@ -164,7 +164,7 @@ def serve(session: LiveSession, sock: socket.socket) -> None:
 
 @contextlib.contextmanager
 def in_background(session: LiveSession, host: str = "127.0.0.1", port: int = 0):
-    """Serve the page from a background thread (for scripts and benchmarks); yield its address.
+    """Serve the page from a background thread (for tests and scripts); yield its address.
 
     The server stops when the block ends.
     """
