@@ -374,7 +374,14 @@ def available_backends() -> tuple[str, ...]:
     return ("numpy", "per-ray", "compiled")
 
 
-def _choose_backend(backend: str | None) -> str:
+def chosen_backend(backend: str | None = None) -> str:
+    """The tracing path to use: ``backend``, else ``$CLOAKVIEW_TRACER``, else the fastest.
+
+    Raises
+    ------
+    InputError
+        For an unknown name, or a compiled path on a machine without numba.
+    """
     choice = (backend or os.environ.get("CLOAKVIEW_TRACER") or "auto").lower()
     if choice not in ("auto", "numpy", "per-ray", "compiled"):
         raise InputError("CLOAKVIEW_TRACER", choice, "must be auto, numpy, per-ray or "
@@ -408,7 +415,7 @@ def trace(rays: Rays, elements, housing: Housing | None = None,
     TraceResult
     """
     ordered = sorted(elements, key=lambda e: e.z_mm)
-    choice = _choose_backend(backend)
+    choice = chosen_backend(backend)
     if choice == "numpy":
         return _trace_numpy(rays, ordered, housing)
     return _trace_compiled(rays, ordered, housing, packets=choice == "compiled")

@@ -113,10 +113,10 @@ def test_compiled_matches_numpy(scene, seed):
 
 def test_environment_switch(monkeypatch):
     monkeypatch.setenv("CLOAKVIEW_TRACER", "numpy")
-    assert trace_module._choose_backend(None) == "numpy"
+    assert trace_module.chosen_backend(None) == "numpy"
     monkeypatch.setenv("CLOAKVIEW_TRACER", "fast")
     with pytest.raises(ValueError, match="must be auto, numpy, per-ray or compiled"):
-        trace_module._choose_backend(None)
+        trace_module.chosen_backend(None)
 
 
 def test_renders_agree_between_paths(tmp_path, monkeypatch):

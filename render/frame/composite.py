@@ -21,11 +21,10 @@ References
 from __future__ import annotations
 
 import math
-import os
 
 import cv2
 import numpy as np
-from cloakview.optics.trace import MOUNT, PANEL, PASSED
+from cloakview.optics.trace import MOUNT, PANEL, PASSED, chosen_backend
 from cloakview.render.frame.composite_kernel import add_housing, pack_pyramid, sample_over
 from cloakview.render.frame.mapper import RayMap
 from cloakview.render.scene.model import Scene
@@ -64,12 +63,12 @@ class TexturePyramids:
 
 
 def reference_path() -> bool:
-    """Whether ``CLOAKVIEW_TRACER=numpy`` asks for the reference path throughout.
+    """Whether the reference path runs throughout (``CLOAKVIEW_TRACER=numpy``).
 
     That is the numpy tracer, the OpenCV sampler and numpy blending instead of the
     compiled kernels.
     """
-    return os.environ.get("CLOAKVIEW_TRACER", "").lower() == "numpy"
+    return chosen_backend() == "numpy"
 
 
 def _remap(texture: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
@@ -205,11 +204,12 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
     clear = np.ones(n, np.float32)
     hidden = np.zeros(n, np.float32)
     used = {}
+    compiled = bool(n) and not reference_path()
     for hit in ray_map.hits:  # z order: nearest first
         name = hit.layer.name
         used[name] = levels[name] if levels is not None else footprint_levels(
             hit.u, hit.v, grid_shape)
-        if not reference_path() and n:
+        if compiled:
             sample_over(*pyramids.packed(name), hit.u, hit.v, used[name],
                         np.float32(hit.layer.opacity), hit.throughput,
                         hit.layer.role == "hidden", rgb, clear, hidden)
@@ -223,14 +223,14 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
         if hit.layer.role == "hidden":
             hidden += clear * alpha
         clear *= 1.0 - alpha
-    if reference_path() or not n:
-        rgb += clear[:, None] * _housing_colour(scene, ray_map)
-    else:
+    if compiled:
         r = ray_map.result
         add_housing(r.fate, r.entered, r.x, r.y, r.z, r.throughput, _palette(scene), clear,
                     rgb, np.array([PASSED, PANEL, MOUNT]), np.array([
                         _LIGHT[0], _LIGHT[1], _AMBIENT + (1 - _AMBIENT) * max(0.0, -_LIGHT[2]),
                         _AMBIENT, scene.housing.panel_z_mm, _TUBE_DEPTH_MM]))
+    else:
+        rgb += clear[:, None] * _housing_colour(scene, ray_map)
     return rgb, hidden, used
 
 
