@@ -462,11 +462,14 @@ def _trace_compiled(rays: Rays, ordered, housing: Housing | None,
     state = np.empty((7, count))
     fate = np.empty(count, np.int8)
     entered = np.empty(count, bool)
-    cross = np.full((max(len(probes), 1), 3, count), np.nan)
-    run = kernel.trace_packets if packets else kernel.trace_rays
-    run(rays.x, rays.y, rays.z, rays.dx, rays.dy, rays.dz, rays.throughput, wl_index, kind,
-        ez, curv, semi, focal, coat, slot, n_before, n_after, frames, box, panel_index, state,
-        fate, entered, cross)
+    cross = np.full((len(probes), 3, count), np.nan)
+    elements = (kind, ez, curv, semi, focal, coat, slot, n_before, n_after, frames, box,
+                panel_index, state, fate, entered, cross)
+    start = (rays.x, rays.y, rays.z, rays.dx, rays.dy, rays.dz, rays.throughput)
+    if packets:
+        kernel.trace_packets(*start, *kernel.packet_table(wl_index), *elements)
+    else:
+        kernel.trace_rays(*start, wl_index, *elements)
     crossings = {p.name: Crossing(cross[k, 0], cross[k, 1], cross[k, 2])
                  for k, p in enumerate(probes)}
     return TraceResult(*state[:6], state[6], fate, entered, crossings)

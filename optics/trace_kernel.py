@@ -302,22 +302,15 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
 #: and packets per parallel chunk (their scratch lanes are allocated once per chunk).
 LANES = 64
 CHUNK = 16
-
-
-@numba.njit(cache=True, inline="always")
-def _probe_lanes(X, Y, Z, DX, DY, DZ, TP, ACT, ze, cross, probe, first, count):
-    """Move the travelling lanes to the probe plane at ``ze`` and record their crossings."""
-    for j in range(LANES):
-        t = (ze - Z[j]) / DZ[j]
-        go = ACT[j]
-        X[j] = X[j] + t * DX[j] if go else X[j]
-        Y[j] = Y[j] + t * DY[j] if go else Y[j]
-        Z[j] = ze if go else Z[j]
-    for j in range(count):
-        if ACT[j]:
-            cross[probe, 0, first + j] = X[j]
-            cross[probe, 1, first + j] = Y[j]
-            cross[probe, 2, first + j] = TP[j]
+#: Rows of a chunk's scratch buffer: one row of LANES values per lane quantity. Flags and
+#: fate codes are held as 0.0/1.0 and small whole numbers in the same float64 buffer, so
+#: every lane access is one base pointer plus a constant offset: the compiler can see that
+#: no two rows overlap and vectorises the loops without run-time alias checks.
+_X, _Y, _Z, _DX, _DY, _DZ, _TP, _STOP, _FATE, _ACT, _INS, _PEND = range(12)
+_ROWS = 12
+#: Element shapes for :func:`_element_lanes` (a constant at each call, so each call
+#: compiles to its own loop with no shape branch inside).
+_IDEAL, _SPHERE, _FLAT = 0, 1, 2
 
 
 @numba.njit(cache=True, inline="always")
@@ -334,253 +327,325 @@ def _wall_time(x, y, z, dx, dy, dz, z_plane, radius):
     return root if (beyond & (c < 0.0)) else (0.0 if beyond else -1.0)
 
 
-@numba.njit(cache=True, parallel=True, error_model="numpy")
-def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
-                  kind, ez, curv, semi, focal, coat, slot, n_before, n_after, frames,
-                  housing, panel_index,
-                  out_state, out_fate, out_entered, cross):
-    """:func:`trace_rays` on packets of :data:`LANES` rays, with the same arguments and results.
+@numba.njit(cache=True, inline="always")
+def _probe_lanes(L, ze, zt, past_end, tube_r, housing, cross, probe, order, first, count):
+    """The tube wall up to a probe plane, then the crossing of every travelling lane."""
+    for j in range(LANES):
+        x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
+        dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
+        go = L[_ACT * LANES + j] > 0.5
+        if housing:
+            ins = L[_INS * LANES + j] > 0.5
+            pend = L[_PEND * LANES + j] > 0.5
+            stop_z = L[_STOP * LANES + j]
+            tw = _wall_time(x, y, z, dx, dy, dz, zt, tube_r)
+            wall = go & ins & pend & (tw >= 0.0)
+            outer = go & (not ins) & (stop_z <= ze)
+            th = tw if wall else (stop_z - z) / dz
+            stop = wall | outer
+            x = x + th * dx if stop else x
+            y = y + th * dy if stop else y
+            z = z + th * dz if stop else z
+            L[_FATE * LANES + j] = float(WALL) if stop else L[_FATE * LANES + j]
+            L[_PEND * LANES + j] = 0.0 if (go & ins & pend & past_end) else L[_PEND * LANES + j]
+            go = go & (not stop)
+        t = (ze - z) / dz
+        L[_X * LANES + j] = x + t * dx if go else x
+        L[_Y * LANES + j] = y + t * dy if go else y
+        L[_Z * LANES + j] = ze if go else z
+        L[_ACT * LANES + j] = 1.0 if go else 0.0
+    for j in range(count):
+        if L[_ACT * LANES + j] > 0.5:
+            i = order[first + j]
+            cross[probe, 0, i] = L[_X * LANES + j]
+            cross[probe, 1, i] = L[_Y * LANES + j]
+            cross[probe, 2, i] = L[_TP * LANES + j]
 
-    Each packet's rays sit in small lane arrays and walk the elements together; inside an
-    element every lane computes the same straight-line arithmetic and keeps its result
-    only where it is still travelling (masks and selects instead of early exits), so the
-    compiler can use the processor's vector units. The operations and their order are
-    those of :func:`trace_rays`, lane by lane, so the results are identical.
+
+@numba.njit(cache=True, inline="always")
+def _any_inside(L):
+    """Whether any lane of the packet is still travelling inside the tube."""
+    live = 0.0
+    for j in range(LANES):
+        live += L[_ACT * LANES + j] * L[_INS * LANES + j]
+    return live > 0.0
+
+
+@numba.njit(cache=True, inline="always")
+def _element_lanes(L, ze, zt, past_end, tube_r, housing, shape, c, semi2, focal, coat, n1,
+                   n2, mounted, fr):
+    """The tube wall up to a lens surface, then the surface, for every lane of a packet.
+
+    The arithmetic of :func:`trace_rays` for one element, lane by lane, with selects in
+    place of its early exits; ``shape`` and ``mounted`` are constants at each call site.
     """
-    n = x0.shape[0]
+    bare = coat < 0.0
+    eta = n1 / n2
+    for j in range(LANES):
+        x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
+        dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
+        tp = L[_TP * LANES + j]
+        fate = L[_FATE * LANES + j]
+        go = L[_ACT * LANES + j] > 0.5
+        ins = L[_INS * LANES + j] > 0.5
+        if housing:
+            pend = L[_PEND * LANES + j] > 0.5
+            tw = _wall_time(x, y, z, dx, dy, dz, zt, tube_r)
+            wall = go & ins & pend & (tw >= 0.0)
+            x = x + tw * dx if wall else x
+            y = y + tw * dy if wall else y
+            z = z + tw * dz if wall else z
+            fate = float(WALL) if wall else fate
+            L[_PEND * LANES + j] = 0.0 if (go & ins & pend & past_end) else L[_PEND * LANES + j]
+            go = go & (not wall)
+        g = go & ins  # rays outside the tube pass beside the lenses
+        ux, uy, uz, udx, udy, udz, utp = x, y, z, dx, dy, dz, tp
+        if mounted:
+            ux, uy, uz, udx, udy, udz = _frame(ux, uy, uz, udx, udy, udz, fr, True)
+        t = (ze - uz) / udz
+        ux = ux + t * udx
+        uy = uy + t * udy
+        uz = ze
+        if shape == _IDEAL:
+            s = ux * ux + uy * uy > semi2
+            u = udx / udz - ux / focal
+            v = udy / udz - uy / focal
+            norm = 1.0 / math.sqrt(1.0 + u * u + v * v)
+            udx = udx if s else u * norm
+            udy = udy if s else v * norm
+            udz = udz if s else norm
+            code = MOUNT
+        else:
+            s = False
+            if shape == _SPHERE:
+                ff = c * (ux * ux + uy * uy)
+                gg = udz - c * (ux * udx + uy * udy)
+                disc = gg * gg - c * ff
+                s = disc < 0.0
+                ts = ff / (gg + math.sqrt(disc))
+                ux = ux if s else ux + ts * udx
+                uy = uy if s else uy + ts * udy
+                uz = uz if s else uz + ts * udz
+            nz = 1.0 - c * (uz - ze)
+            off_cap = not ((ux * ux + uy * uy <= semi2) & (nz > 0.0))
+            s = s | off_cap
+            nx, ny = -c * ux, -c * uy
+            cos_i = udx * nx + udy * ny + udz * nz
+            flip = -1.0 if cos_i < 0.0 else 1.0
+            cos_i = abs(cos_i)
+            kk = 1.0 - eta * eta * (1.0 - cos_i * cos_i)
+            tir = (not s) & (kk < 0.0)
+            code = TIR if tir else MOUNT
+            s = s | tir
+            cos_t = math.sqrt(kk)
+            scale = (cos_t - eta * cos_i) * flip
+            ndx = eta * udx + scale * nx
+            ndy = eta * udy + scale * ny
+            ndz = eta * udz + scale * nz
+            ntp = utp * _fresnel_transmittance(n1, n2, cos_i, cos_t) if bare else utp * (
+                1.0 - coat)
+            udx = udx if s else ndx
+            udy = udy if s else ndy
+            udz = udz if s else ndz
+            utp = utp if s else ntp
+            backward = (not s) & (udz <= 0.0)
+            code = BACKWARD if backward else code
+            s = s | backward
+        if mounted:
+            bx, by, bz, bdx, bdy, bdz = _frame(ux, uy, uz, udx, udy, udz, fr, False)
+            keep = not s
+            ux = bx if keep else ux
+            uy = by if keep else uy
+            uz = bz if keep else uz
+            udx = bdx if keep else udx
+            udy = bdy if keep else udy
+            udz = bdz if keep else udz
+            backward = keep & (udz <= 0.0)
+            code = BACKWARD if backward else code
+            s = s | backward
+        L[_X * LANES + j] = ux if g else x
+        L[_Y * LANES + j] = uy if g else y
+        L[_Z * LANES + j] = uz if g else z
+        L[_DX * LANES + j] = udx if g else dx
+        L[_DY * LANES + j] = udy if g else dy
+        L[_DZ * LANES + j] = udz if g else dz
+        L[_TP * LANES + j] = utp if g else tp
+        L[_FATE * LANES + j] = float(code) if (g & s) else fate
+        L[_ACT * LANES + j] = 0.0 if (g & s) else (1.0 if go else 0.0)
+
+
+@numba.njit(cache=True, parallel=True, error_model="numpy")
+def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, order, packet_first, packet_count,
+                  packet_w, kind, ez, curv, semi, focal, coat, slot, n_before, n_after,
+                  frames, housing, panel_index, out_state, out_fate, out_entered, cross):
+    """:func:`trace_rays` on packets of :data:`LANES` rays of one wavelength each.
+
+    Each packet's rays sit in one scratch buffer and walk the elements together; inside an
+    element every lane computes the same straight-line arithmetic and keeps its result
+    only where it is still travelling (selects instead of early exits), so the compiler
+    uses the processor's vector units. The operations and their order are those of
+    :func:`trace_rays`, lane by lane, so the results are identical.
+
+    Parameters
+    ----------
+    order : int64 array (N,)
+        Ray indices in packet order (grouped by wavelength).
+    packet_first, packet_count, packet_w : int64 arrays (P,)
+        Each packet's first position in ``order``, its ray count (1 to LANES) and its
+        wavelength's column of ``n_before``/``n_after``.
+
+    The other arguments and the results are those of :func:`trace_rays`.
+    """
     n_el = kind.shape[0]
     has_housing = housing[0] > 0.5
     panel_z, hole_r, half_w, half_h = housing[1], housing[2], housing[3], housing[4]
     tube_r, tube_end_z = housing[5], housing[6]
-    packets = (n + LANES - 1) // LANES
+    packets = packet_first.shape[0]
     chunks = (packets + CHUNK - 1) // CHUNK
-    for q in numba.prange(chunks):  # scratch lanes allocated once per chunk of packets
-        X = np.empty(LANES)
-        Y = np.empty(LANES)
-        Z = np.empty(LANES)
-        DX = np.empty(LANES)
-        DY = np.empty(LANES)
-        DZ = np.empty(LANES)
-        TP = np.empty(LANES)
-        STOP = np.empty(LANES)
-        W = np.empty(LANES, np.int64)
-        FATE = np.empty(LANES, np.int8)
-        ACT = np.empty(LANES, np.bool_)
-        INS = np.empty(LANES, np.bool_)
-        PEND = np.empty(LANES, np.bool_)
-        N1 = np.empty(LANES)
-        N2 = np.empty(LANES)
-        UX = np.empty(LANES)
-        UY = np.empty(LANES)
-        UZ = np.empty(LANES)
-        UDX = np.empty(LANES)
-        UDY = np.empty(LANES)
-        UDZ = np.empty(LANES)
-        UTP = np.empty(LANES)
-        G = np.empty(LANES, np.bool_)
-        S = np.empty(LANES, np.bool_)
-        F = np.empty(LANES, np.int8)
+    for q in numba.prange(chunks):  # one scratch buffer per chunk of packets
+        L = np.empty(_ROWS * LANES)
         for p in range(q * CHUNK, min((q + 1) * CHUNK, packets)):
-            first = p * LANES
-            count = min(LANES, n - first)
+            first = packet_first[p]
+            count = packet_count[p]
+            w = packet_w[p]
             for j in range(LANES):
-                i = first + (j if j < count else 0)  # spare lanes repeat the first ray
-                X[j], Y[j], Z[j] = x0[i], y0[i], z0[i]
-                DX[j], DY[j], DZ[j] = dx0[i], dy0[i], dz0[i]
-                TP[j] = tp0[i]
-                W[j] = wl_index[i]
-                ACT[j] = dz0[i] > 0.0
-                FATE[j] = PASSED if dz0[i] > 0.0 else BACKWARD
-                INS[j] = True
-                PEND[j] = has_housing
-                STOP[j] = np.inf
+                i = order[first + (j if j < count else 0)]  # spare lanes repeat a ray
+                L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j] = x0[i], y0[i], z0[i]
+                L[_DX * LANES + j], L[_DY * LANES + j] = dx0[i], dy0[i]
+                L[_DZ * LANES + j] = dz0[i]
+                L[_TP * LANES + j] = tp0[i]
+                L[_ACT * LANES + j] = 1.0 if dz0[i] > 0.0 else 0.0
+                L[_FATE * LANES + j] = float(PASSED if dz0[i] > 0.0 else BACKWARD)
+                L[_INS * LANES + j] = 1.0
+                L[_PEND * LANES + j] = 1.0 if has_housing else 0.0
+                L[_STOP * LANES + j] = np.inf
             start = 0
             if has_housing:
                 for e in range(panel_index):
-                    if kind[e] != PROBE:
-                        continue
-                    ze = ez[e]
-                    _probe_lanes(X, Y, Z, DX, DY, DZ, TP, ACT, ze, cross, slot[e], first,
-                                 count)
+                    if kind[e] == PROBE:  # nothing else can stand in front of the panel
+                        _probe_lanes(L, ez[e], ez[e], False, tube_r, False, cross, slot[e],
+                                     order, first, count)
                 start = panel_index
                 for j in range(LANES):
-                    go = ACT[j]
-                    t = (panel_z - Z[j]) / DZ[j]
-                    x = X[j] + t * DX[j]
-                    y = Y[j] + t * DY[j]
+                    go = L[_ACT * LANES + j] > 0.5
+                    dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
+                    t = (panel_z - L[_Z * LANES + j]) / dz
+                    x = L[_X * LANES + j] + t * dx
+                    y = L[_Y * LANES + j] + t * dy
                     r2 = x * x + y * y
                     in_hole = r2 <= hole_r * hole_r
                     on_panel = (not in_hole) & (abs(x) <= half_w) & (abs(y) <= half_h)
                     outside = (not in_hole) & (not on_panel)
-                    a = DX[j] * DX[j] + DY[j] * DY[j]
-                    b = x * DX[j] + y * DY[j]
+                    a = dx * dx + dy * dy
+                    b = x * dx + y * dy
                     c = r2 - tube_r * tube_r
                     disc = b * b - a * c
                     th = (-b - math.sqrt(disc)) / a
-                    zh = panel_z + th * DZ[j]
+                    zh = panel_z + th * dz
                     hits = (outside & (b < 0.0) & (disc >= 0.0) & (zh >= panel_z)
                             & (zh <= tube_end_z))
-                    X[j] = x if go else X[j]
-                    Y[j] = y if go else Y[j]
-                    Z[j] = panel_z if go else Z[j]
-                    STOP[j] = zh if (go & hits) else STOP[j]
-                    INS[j] = False if (go & outside) else INS[j]
-                    FATE[j] = PANEL if (go & on_panel) else FATE[j]
-                    ACT[j] = go & (not on_panel)
+                    L[_X * LANES + j] = x if go else L[_X * LANES + j]
+                    L[_Y * LANES + j] = y if go else L[_Y * LANES + j]
+                    L[_Z * LANES + j] = panel_z if go else L[_Z * LANES + j]
+                    L[_STOP * LANES + j] = zh if (go & hits) else L[_STOP * LANES + j]
+                    L[_INS * LANES + j] = 0.0 if (go & outside) else L[_INS * LANES + j]
+                    L[_FATE * LANES + j] = float(PANEL) if (go & on_panel) else L[
+                        _FATE * LANES + j]
+                    L[_ACT * LANES + j] = 1.0 if (go & (not on_panel)) else 0.0
             for j in range(count):
-                out_entered[first + j] = (INS[j] and ACT[j]) or not has_housing
+                out_entered[order[first + j]] = ((L[_INS * LANES + j] > 0.5)
+                                                 and (L[_ACT * LANES + j] > 0.5)) or not has_housing
             for e in range(start, n_el):
                 ze = ez[e]
-                k = kind[e]
-                if has_housing:  # the tube wall before this element (none without)
-                    for j in range(LANES):
-                        go = ACT[j]
-                        x, y, z, dx, dy, dz = X[j], Y[j], Z[j], DX[j], DY[j], DZ[j]
-                        c1 = go & INS[j] & PEND[j] & (ze > tube_end_z)
-                        th1 = _wall_time(x, y, z, dx, dy, dz, tube_end_z, tube_r)
-                        hit1 = c1 & (th1 >= 0.0)
-                        pend = PEND[j] & (not c1)
-                        c2 = go & INS[j] & pend & (not hit1)
-                        th2 = _wall_time(x, y, z, dx, dy, dz, ze, tube_r)
-                        hit2 = c2 & (th2 >= 0.0)
-                        c3 = go & (not INS[j]) & (k == PROBE) & (STOP[j] <= ze)
-                        th3 = (STOP[j] - z) / dz
-                        stop = hit1 | hit2 | c3
-                        th = th1 if hit1 else (th2 if hit2 else th3)
-                        X[j] = x + th * dx if stop else x
-                        Y[j] = y + th * dy if stop else y
-                        Z[j] = z + th * dz if stop else z
-                        FATE[j] = WALL if stop else FATE[j]
-                        PEND[j] = pend
-                        ACT[j] = go & (not stop)
-                if k == PROBE:
-                    _probe_lanes(X, Y, Z, DX, DY, DZ, TP, ACT, ze, cross, slot[e], first,
-                                 count)
+                past_end = ze > tube_end_z
+                zt = tube_end_z if past_end else ze  # the one wall plane this step can meet
+                if kind[e] == PROBE:
+                    _probe_lanes(L, ze, zt, past_end, tube_r, has_housing, cross, slot[e],
+                                 order, first, count)
                     continue
-                mounted = frames[e, 0] > 0.5
+                if not _any_inside(L):
+                    continue  # walls and lenses act only on travelling rays inside the tube
                 f = frames[e]
-                bare = coat[e] < 0.0
-                for j in range(LANES):  # copies to work on; each lane's indices gathered
-                    G[j] = ACT[j] & INS[j]  # rays outside the tube pass beside the lenses
-                    S[j] = False
-                    F[j] = PASSED
-                    UX[j], UY[j], UZ[j] = X[j], Y[j], Z[j]
-                    UDX[j], UDY[j], UDZ[j] = DX[j], DY[j], DZ[j]
-                    UTP[j] = TP[j]
-                    N1[j] = n_before[e, W[j]]
-                    N2[j] = n_after[e, W[j]]
-                if mounted:
-                    for j in range(LANES):
-                        UX[j], UY[j], UZ[j], UDX[j], UDY[j], UDZ[j] = _frame(
-                            UX[j], UY[j], UZ[j], UDX[j], UDY[j], UDZ[j], f, True)
-                for j in range(LANES):
-                    t = (ze - UZ[j]) / UDZ[j]
-                    UX[j] = UX[j] + t * UDX[j]
-                    UY[j] = UY[j] + t * UDY[j]
-                    UZ[j] = ze
-                if k == IDEAL:
-                    for j in range(LANES):
-                        x, y, dx, dy, dz = UX[j], UY[j], UDX[j], UDY[j], UDZ[j]
-                        miss = x * x + y * y > semi[e] * semi[e]
-                        u = dx / dz - x / focal[e]
-                        v = dy / dz - y / focal[e]
-                        norm = 1.0 / math.sqrt(1.0 + u * u + v * v)
-                        UDX[j] = dx if miss else u * norm
-                        UDY[j] = dy if miss else v * norm
-                        UDZ[j] = dz if miss else norm
-                        F[j] = MOUNT if miss else F[j]
-                        S[j] = miss
+                fr = (f[0], f[1], f[2], f[3], f[4], f[5], f[6], f[7], f[8], f[9], f[10],
+                      f[11], f[12])
+                mounted = f[0] > 0.5
+                c, semi2, fe, ce = curv[e], semi[e] * semi[e], focal[e], coat[e]
+                n1, n2 = n_before[e, w], n_after[e, w]
+                if kind[e] == IDEAL:
+                    if mounted:
+                        _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _IDEAL, c,
+                                       semi2, fe, ce, n1, n2, True, fr)
+                    else:
+                        _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _IDEAL, c,
+                                       semi2, fe, ce, n1, n2, False, fr)
+                elif c != 0.0:
+                    if mounted:
+                        _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _SPHERE, c,
+                                       semi2, fe, ce, n1, n2, True, fr)
+                    else:
+                        _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _SPHERE, c,
+                                       semi2, fe, ce, n1, n2, False, fr)
+                elif mounted:
+                    _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _FLAT, c, semi2,
+                                   fe, ce, n1, n2, True, fr)
                 else:
-                    c = curv[e]
-                    if c != 0.0:
-                        for j in range(LANES):
-                            x, y, z, dx, dy, dz = UX[j], UY[j], UZ[j], UDX[j], UDY[j], UDZ[j]
-                            ff = c * (x * x + y * y)
-                            g = dz - c * (x * dx + y * dy)
-                            disc = g * g - c * ff
-                            miss = disc < 0.0
-                            ts = ff / (g + math.sqrt(disc))
-                            UX[j] = x if miss else x + ts * dx
-                            UY[j] = y if miss else y + ts * dy
-                            UZ[j] = z if miss else z + ts * dz
-                            S[j] = miss
-                    for j in range(LANES):
-                        x, y, z, dx, dy, dz = UX[j], UY[j], UZ[j], UDX[j], UDY[j], UDZ[j]
-                        stopped = S[j]
-                        nz = 1.0 - c * (z - ze)
-                        off_cap = not ((x * x + y * y <= semi[e] * semi[e]) & (nz > 0.0))
-                        fate = MOUNT if (stopped | off_cap) else PASSED
-                        stopped = stopped | off_cap
-                        nx, ny = -c * x, -c * y
-                        cos_i = dx * nx + dy * ny + dz * nz
-                        flip = -1.0 if cos_i < 0.0 else 1.0
-                        cos_i = abs(cos_i)
-                        n1 = N1[j]
-                        n2 = N2[j]
-                        eta = n1 / n2
-                        kk = 1.0 - eta * eta * (1.0 - cos_i * cos_i)
-                        tir = (not stopped) & (kk < 0.0)
-                        fate = TIR if tir else fate
-                        stopped = stopped | tir
-                        cos_t = math.sqrt(kk)
-                        scale = (cos_t - eta * cos_i) * flip
-                        ndx = eta * dx + scale * nx
-                        ndy = eta * dy + scale * ny
-                        ndz = eta * dz + scale * nz
-                        fresnel = UTP[j] * _fresnel_transmittance(n1, n2, cos_i, cos_t)
-                        coated = UTP[j] * (1.0 - coat[e])
-                        ntp = fresnel if bare else coated
-                        UDX[j] = dx if stopped else ndx
-                        UDY[j] = dy if stopped else ndy
-                        UDZ[j] = dz if stopped else ndz
-                        UTP[j] = UTP[j] if stopped else ntp
-                        backward = (not stopped) & (UDZ[j] <= 0.0)
-                        F[j] = BACKWARD if backward else fate
-                        S[j] = stopped | backward
-                if mounted:
-                    for j in range(LANES):
-                        bx, by, bz, bdx, bdy, bdz = _frame(UX[j], UY[j], UZ[j], UDX[j], UDY[j],
-                                                           UDZ[j], f, False)
-                        keep = not S[j]
-                        UX[j] = bx if keep else UX[j]
-                        UY[j] = by if keep else UY[j]
-                        UZ[j] = bz if keep else UZ[j]
-                        UDX[j] = bdx if keep else UDX[j]
-                        UDY[j] = bdy if keep else UDY[j]
-                        UDZ[j] = bdz if keep else UDZ[j]
-                        backward = keep & (UDZ[j] <= 0.0)
-                        F[j] = BACKWARD if backward else F[j]
-                        S[j] = S[j] | backward
-                for j in range(LANES):
-                    go = G[j]
-                    X[j] = UX[j] if go else X[j]
-                    Y[j] = UY[j] if go else Y[j]
-                    Z[j] = UZ[j] if go else Z[j]
-                    DX[j] = UDX[j] if go else DX[j]
-                    DY[j] = UDY[j] if go else DY[j]
-                    DZ[j] = UDZ[j] if go else DZ[j]
-                    TP[j] = UTP[j] if go else TP[j]
-                    FATE[j] = F[j] if (go & S[j]) else FATE[j]
-                    ACT[j] = ACT[j] & (not (go & S[j]))
+                    _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _FLAT, c, semi2,
+                                   fe, ce, n1, n2, False, fr)
             for j in range(count):
-                x, y, z, dx, dy, dz = X[j], Y[j], Z[j], DX[j], DY[j], DZ[j]
-                fate = FATE[j]
-                if ACT[j]:
-                    if INS[j] and PEND[j]:
+                x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
+                dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
+                fate = int(L[_FATE * LANES + j])
+                if L[_ACT * LANES + j] > 0.5:
+                    ins = L[_INS * LANES + j] > 0.5
+                    if ins and L[_PEND * LANES + j] > 0.5:
                         th = _wall_hit(x, y, z, dx, dy, dz, tube_end_z, tube_r)
                         if th >= 0.0:
                             x, y, z = _advance(x, y, z, dx, dy, dz, th)
                             fate = WALL
-                    if fate == PASSED and not INS[j] and STOP[j] < np.inf:
-                        th = (STOP[j] - z) / dz
+                    stop_z = L[_STOP * LANES + j]
+                    if fate == PASSED and not ins and stop_z < np.inf:
+                        th = (stop_z - z) / dz
                         x, y, z = _advance(x, y, z, dx, dy, dz, th)
                         fate = WALL
-                i = first + j
+                i = order[first + j]
                 out_state[0, i] = x
                 out_state[1, i] = y
                 out_state[2, i] = z
                 out_state[3, i] = dx
                 out_state[4, i] = dy
                 out_state[5, i] = dz
-                out_state[6, i] = TP[j]
+                out_state[6, i] = L[_TP * LANES + j]
                 out_fate[i] = fate
+
+
+def packet_table(wl_index):
+    """Packets of at most :data:`LANES` rays sharing one wavelength.
+
+    Parameters
+    ----------
+    wl_index : int64 array (N,)
+        Each ray's wavelength column.
+
+    Returns
+    -------
+    order, packet_first, packet_count, packet_w : int64 arrays
+        The arguments of the same names of :func:`trace_packets`.
+    """
+    n = wl_index.shape[0]
+    if n and np.all(wl_index[1:] >= wl_index[:-1]):
+        order = np.arange(n, dtype=np.int64)
+        sorted_w = wl_index
+    else:
+        order = np.argsort(wl_index, kind="stable").astype(np.int64)
+        sorted_w = wl_index[order]
+    starts = np.flatnonzero(np.r_[True, sorted_w[1:] != sorted_w[:-1]]) if n else \
+        np.zeros(0, np.int64)
+    ends = np.r_[starts[1:], n].astype(np.int64)
+    first = [np.arange(s, e, LANES, dtype=np.int64) for s, e in zip(starts, ends)]
+    packet_first = np.concatenate(first) if first else np.zeros(0, np.int64)
+    packet_end = np.concatenate([np.minimum(f + LANES, e) for f, e in zip(first, ends)]) \
+        if first else np.zeros(0, np.int64)
+    packet_w = np.concatenate([np.full(len(f), sorted_w[s], np.int64)
+                               for f, s in zip(first, starts)]) if first else \
+        np.zeros(0, np.int64)
+    return order, packet_first, packet_end - packet_first, packet_w

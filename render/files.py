@@ -6,6 +6,7 @@ An interrupted run never leaves a half-written file and never destroys an older 
 from __future__ import annotations
 
 import csv
+import functools
 import io
 import json
 import os
@@ -168,8 +169,9 @@ def write_csv(path: Path, rows: list[dict], columns=None) -> None:
     write_text(path, buffer.getvalue())
 
 
+@functools.lru_cache(maxsize=1)
 def program_version() -> str:
-    """The installed cloakview version (from the package metadata)."""
+    """The installed cloakview version (from the package metadata; read once per process)."""
     return metadata.version("cloakview")
 
 

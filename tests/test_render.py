@@ -176,17 +176,29 @@ def test_metrics_from_every_kth_ray_match_the_full_frame(tmp_path, monkeypatch):
     assert sampled["transmittance"] == pytest.approx(full["transmittance"], rel=0.01)
 
 
-def test_resolving_samples_equals_the_mean_over_the_grid():
-    # The strided float64 sum must give the plain mean over pupil points and supersamples.
+@pytest.mark.parametrize("path", ["numpy", "compiled"])
+def test_resolving_samples_equals_the_mean_over_the_grid(path, monkeypatch):
+    # Both paths (the strided float64 sum and the compiled one-pass sum) must give the
+    # plain mean over pupil points and supersamples, and the same float32 values.
+    from cloakview.optics.trace import available_backends
     from cloakview.render.frame.composite import resolve_samples
+    if path not in available_backends():
+        pytest.skip("numba is not installed")
     rng = np.random.default_rng(5)
     for pupil, s, channels in ((1, 1, 1), (1, 2, 3), (3, 2, 3), (2, 3, 1)):
         rows, cols = 4 * s, 6 * s
         samples = rng.random((pupil * rows * cols, channels)).astype(np.float32)
         expected = samples.reshape(pupil, rows // s, s, cols // s, s, channels).mean(
             axis=(0, 2, 4), dtype=np.float64)
-        np.testing.assert_allclose(resolve_samples(samples, (pupil, rows, cols), s), expected,
-                                   rtol=1e-6, atol=1e-7)
+        monkeypatch.setenv("CLOAKVIEW_TRACER", path)
+        got = resolve_samples(samples, (pupil, rows, cols), s)
+        np.testing.assert_allclose(got, expected, rtol=1e-6, atol=1e-7)
+        monkeypatch.setenv("CLOAKVIEW_TRACER", "numpy")
+        np.testing.assert_array_equal(got, resolve_samples(samples, (pupil, rows, cols), s))
+        flat = resolve_samples(samples[:, 0].copy(), (pupil, rows, cols), s)
+        monkeypatch.setenv("CLOAKVIEW_TRACER", path)
+        np.testing.assert_array_equal(resolve_samples(samples[:, 0].copy(),
+                                                      (pupil, rows, cols), s), flat)
 
 
 def test_background_ssim_on_the_crop_equals_the_whole_picture():

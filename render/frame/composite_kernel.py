@@ -142,3 +142,25 @@ def add_housing(fate, entered, x, y, z, throughput, palette, clear, rgb, codes, 
             shade = np.float32(shade * throughput[i])
         for c in range(3):
             rgb[i, c] += clear[i] * (palette[entry, c] * shade)
+
+
+@numba.njit(cache=True, parallel=True)
+def resolve_blocks(samples, pupil, rows, cols, s, out):
+    """Mean of each pixel's ``pupil`` x ``s`` x ``s`` samples into ``out`` (H, W, C).
+
+    ``samples`` (pupil * rows * cols, C) in sample-grid order; sums in float64, in the
+    order of :func:`cloakview.render.frame.composite.resolve_samples` (pupil point, then
+    sub-row, then sub-column), so the two give the same float32 values.
+    """
+    height, width, channels = out.shape
+    scale = 1.0 / (pupil * s * s)
+    for r in numba.prange(height):
+        for c in range(width):
+            for k in range(channels):
+                total = 0.0
+                for p in range(pupil):
+                    for i in range(s):
+                        row = (p * rows + r * s + i) * cols + c * s
+                        for j in range(s):
+                            total += np.float64(samples[row + j, k])
+                out[r, c, k] = np.float32(total * scale)
