@@ -641,11 +641,13 @@ def packet_table(wl_index):
     starts = np.flatnonzero(np.r_[True, sorted_w[1:] != sorted_w[:-1]]) if n else \
         np.zeros(0, np.int64)
     ends = np.r_[starts[1:], n].astype(np.int64)
-    first = [np.arange(s, e, LANES, dtype=np.int64) for s, e in zip(starts, ends)]
-    packet_first = np.concatenate(first) if first else np.zeros(0, np.int64)
-    packet_end = np.concatenate([np.minimum(f + LANES, e) for f, e in zip(first, ends)]) \
-        if first else np.zeros(0, np.int64)
-    packet_w = np.concatenate([np.full(len(f), sorted_w[s], np.int64)
-                               for f, s in zip(first, starts)]) if first else \
-        np.zeros(0, np.int64)
-    return order, packet_first, packet_end - packet_first, packet_w
+    first, count, wave = [], [], []
+    for s, e in zip(starts, ends, strict=True):
+        f = np.arange(s, e, LANES, dtype=np.int64)
+        first.append(f)
+        count.append(np.minimum(f + LANES, e) - f)
+        wave.append(np.full(len(f), sorted_w[s], np.int64))
+    if not first:
+        empty = np.zeros(0, np.int64)
+        return order, empty, empty, empty
+    return order, np.concatenate(first), np.concatenate(count), np.concatenate(wave)

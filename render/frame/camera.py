@@ -58,6 +58,11 @@ def pixel_directions(viewer: Viewer, supersample: int, row_range=None,
     ``basis`` = (forward, right, up) gives the eye's axes in the wanted frame (default
     the room frame).
     """
+    return np.stack(_direction_planes(viewer, supersample, row_range, basis), axis=-1)
+
+
+def _direction_planes(viewer: Viewer, supersample: int, row_range=None, basis=None):
+    """The x, y and z components of :func:`pixel_directions`, each (rows, columns)."""
     forward, right, up = basis if basis is not None else _basis(viewer)
     cols, rows = viewer.width_px * supersample, viewer.height_px * supersample
     first, stop = row_range or (0, rows)
@@ -66,10 +71,8 @@ def pixel_directions(viewer: Viewer, supersample: int, row_range=None,
     py = (1.0 - (np.arange(first, stop) + 0.5) / rows * 2.0) * half * rows / cols
     # The basis is orthonormal, so |forward + px right + py up|^2 = 1 + px^2 + py^2.
     scale = 1.0 / np.sqrt(1.0 + px[None, :] ** 2 + py[:, None] ** 2)
-    d = np.empty((len(py), cols, 3))
-    for k in range(3):
-        d[..., k] = (forward[k] + px[None, :] * right[k] + py[:, None] * up[k]) * scale
-    return d
+    return tuple((forward[k] + px[None, :] * right[k] + py[:, None] * up[k]) * scale
+                 for k in range(3))
 
 
 def device_directions(viewer: Viewer, placement: Placement, supersample: int = 1,
@@ -121,18 +124,19 @@ def camera_rays(viewer: Viewer, placement: Placement, supersample: int,
     row_range : tuple of int, optional
         (first, stop) sample rows to make, for rendering in bands.
     """
-    directions = device_directions(viewer, placement, supersample, row_range)
-    rows, cols = directions.shape[:2]
     offsets = _pupil_offsets(viewer)
     eye = placement.to_device(np.asarray(viewer.eye_mm, float))
-    if len(offsets) == 1:
+    if len(offsets) == 1:  # a pinhole: the direction planes are the rays' components
+        basis = tuple(placement.directions_to_device(v) for v in _basis(viewer))
+        planes = _direction_planes(viewer, supersample, row_range, basis)
+        rows, cols = planes[0].shape
         count = rows * cols
-        d = directions.reshape(-1, 3)
         rays = Rays(np.full(count, eye[0]), np.full(count, eye[1]), np.full(count, eye[2]),
-                    np.ascontiguousarray(d[:, 0]), np.ascontiguousarray(d[:, 1]),
-                    np.ascontiguousarray(d[:, 2]), np.full(count, float(wavelength_nm)),
-                    np.ones(count))
+                    *(plane.reshape(-1) for plane in planes),
+                    np.full(count, float(wavelength_nm)), np.ones(count))
         return rays, SampleGrid(1, rows, cols, supersample)
+    directions = device_directions(viewer, placement, supersample, row_range)
+    rows, cols = directions.shape[:2]
     forward, right, up = (placement.directions_to_device(v) for v in _basis(viewer))
     focus = np.linalg.norm(np.asarray(viewer.look_at_mm, float) - np.asarray(viewer.eye_mm))
     # Every pupil sample aims at the pinhole ray's point on the plane of focus [2].

@@ -25,8 +25,12 @@ import math
 import cv2
 import numpy as np
 from cloakview.optics.trace import MOUNT, PANEL, PASSED, chosen_backend
-from cloakview.render.frame.composite_kernel import (add_housing, pack_pyramid, resolve_blocks,
-                                                      sample_over)
+from cloakview.render.frame.composite_kernel import (
+    add_housing,
+    pack_pyramid,
+    resolve_blocks,
+    sample_over,
+)
 from cloakview.render.frame.mapper import RayMap
 from cloakview.render.scene.model import Scene
 

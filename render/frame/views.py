@@ -199,7 +199,7 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
                                                 supersample)[..., 0]
         for wl in order:
             if wl == design:
-                rgb, sub_map, ids = base, ray_map, np.arange(len(rays))
+                rgb, sub_map, ids = base, ray_map, None  # every ray, in order
             else:
                 sub = _subset(rays, entered)
                 sub.wavelength_nm[:] = wl
@@ -212,19 +212,31 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
             weight = weights[list(wavelengths).index(wl)] if dispersive else 1.0
             image[rows] += resolve_samples(rgb, shape, supersample) * weight
             if wl in kept:
-                chosen = (offset + ids) % stride == 0
-                if setup.lenses:
-                    chosen &= sub_map.through_device
-                pick = np.flatnonzero(chosen)
+                pick = _record_rows(ids, offset, stride, len(rays),
+                                    sub_map.through_device if setup.lenses else None)
                 crossing = sub_map.result.crossings[wall]
-                parts[wl].append((offset + ids[pick], sub_map.result.throughput[pick],
-                                  crossing.x[pick], crossing.y[pick]))
+                index = offset + (pick if ids is None else ids[pick])
+                parts[wl].append((index, sub_map.result.throughput[pick], crossing.x[pick],
+                                  crossing.y[pick]))
         offset += grid.count
     records = {wl: RayRecord(*(np.concatenate(column) for column in zip(*chunks,
                                                                         strict=True)))
                for wl, chunks in parts.items()}
     return TracedView(image, cover["hidden"], cover["entered"], cover["through"],
                       cover["replaced"], records)
+
+
+def _record_rows(ids, offset: int, stride: int, count: int, through) -> np.ndarray:
+    """Rows of a band's trace whose rays are kept: frame index a multiple of ``stride``.
+
+    ``ids`` maps the trace's rows to the band's rays (None: row i is ray i of ``count``);
+    with ``through`` (lenses present), only rays that passed the device are kept.
+    """
+    if ids is None and through is None:
+        return np.arange((-offset) % stride, count, stride)
+    rows = np.flatnonzero(through) if through is not None else np.arange(len(ids))
+    frame = offset + (rows if ids is None else ids[rows])
+    return rows[frame % stride == 0]
 
 
 def _front_background(scene: Scene):
@@ -276,11 +288,27 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
                                        pyramids, ss, keep_records=name != "naked")
         if progress:
             progress(f"{viewer.name}: {name}")
-    srgb = {name: linear_to_srgb(t.image) for name, t in traced.items()}
+    srgb = _Encoded(traced)
     metrics = _measure(scene, viewer, traced, srgb)
     images = {name: _picture(name, traced, srgb) for name in views}
     return ViewerRender(viewer, images, metrics, time.perf_counter() - start,
                         traced["cloaked"].through, traced["cloaked"].entered)
+
+
+class _Encoded(dict):
+    """The sRGB encoding of each traced view's image, made on first use only.
+
+    The metrics need it only when some pixels see through the device (for SSIM), the
+    pictures only for the overlays; a sweep point that sees nothing through encodes none.
+    """
+
+    def __init__(self, traced: dict[str, TracedView]):
+        super().__init__()
+        self._traced = traced
+
+    def __missing__(self, name: str) -> np.ndarray:
+        value = self[name] = linear_to_srgb(self._traced[name].image)
+        return value
 
 
 #: The traced views each picture is made from.
@@ -311,8 +339,7 @@ def render_picture(scene: Scene, viewer: Viewer, pyramids: TexturePyramids, view
     traced = {name: _trace_view(scene, viewer, SETUPS[name], scene.settings.wavelengths_nm,
                                 pyramids, supersample, keep_records=False)
               for name in PICTURE_NEEDS[view]}
-    srgb = {} if view in SETUPS else {n: linear_to_srgb(t.image) for n, t in traced.items()}
-    return _picture(view, traced, srgb)
+    return _picture(view, traced, _Encoded(traced))
 
 
 def _measure(scene, viewer, traced, srgb) -> dict:
