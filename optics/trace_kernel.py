@@ -632,22 +632,21 @@ def packet_table(wl_index):
         The arguments of the same names of :func:`trace_packets`.
     """
     n = wl_index.shape[0]
-    if n and np.all(wl_index[1:] >= wl_index[:-1]):
+    if n == 0:
+        empty = np.zeros(0, np.int64)
+        return empty, empty, empty, empty
+    if np.all(wl_index[1:] >= wl_index[:-1]):
         order = np.arange(n, dtype=np.int64)
         sorted_w = wl_index
     else:
         order = np.argsort(wl_index, kind="stable").astype(np.int64)
         sorted_w = wl_index[order]
-    starts = np.flatnonzero(np.r_[True, sorted_w[1:] != sorted_w[:-1]]) if n else \
-        np.zeros(0, np.int64)
-    ends = np.r_[starts[1:], n].astype(np.int64)
+    starts = np.flatnonzero(np.r_[True, sorted_w[1:] != sorted_w[:-1]])
+    ends = np.r_[starts[1:], n]
     first, count, wave = [], [], []
     for s, e in zip(starts, ends, strict=True):
         f = np.arange(s, e, LANES, dtype=np.int64)
         first.append(f)
         count.append(np.minimum(f + LANES, e) - f)
         wave.append(np.full(len(f), sorted_w[s], np.int64))
-    if not first:
-        empty = np.zeros(0, np.int64)
-        return order, empty, empty, empty
     return order, np.concatenate(first), np.concatenate(count), np.concatenate(wave)
