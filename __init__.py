@@ -38,26 +38,61 @@ Examples
 880
 """
 
-from cloakview import sample_scenes
-from cloakview.optics.errors import InputError
-from cloakview.render.api.frames import copy_samples, design, eyes, render
-from cloakview.render.api.motion import sightlines, walk, zone
-from cloakview.render.api.planning import choose, tolerance
-from cloakview.render.api.report import report
-from cloakview.render.scene.loader import load_scene
+import importlib
+import sys
+import types
 
-__all__ = [
-    "InputError",
-    "choose",
-    "copy_samples",
-    "design",
-    "eyes",
-    "load_scene",
-    "render",
-    "report",
-    "sample_scenes",
-    "sightlines",
-    "tolerance",
-    "walk",
-    "zone",
-]
+#: Where each public name lives. They are imported on first use (PEP 562), so a process
+#: that needs one part (a sweep worker: the tracer and the frame) does not pay for the
+#: rest (the charts, matplotlib, the page).
+_HOMES = {
+    "InputError": "cloakview.optics.errors",
+    "choose": "cloakview.render.api.planning",
+    "copy_samples": "cloakview.render.api.frames",
+    "design": "cloakview.render.api.frames",
+    "eyes": "cloakview.render.api.frames",
+    "load_scene": "cloakview.render.scene.loader",
+    "render": "cloakview.render.api.frames",
+    "report": "cloakview.render.api.report",
+    "sample_scenes": "cloakview.sample_scenes",
+    "sightlines": "cloakview.render.api.motion",
+    "tolerance": "cloakview.render.api.planning",
+    "walk": "cloakview.render.api.motion",
+    "zone": "cloakview.render.api.motion",
+}
+__all__ = sorted(_HOMES)
+
+
+def _load(name: str):
+    module = importlib.import_module(_HOMES[name])
+    return module if module.__name__ == f"cloakview.{name}" else getattr(module, name)
+
+
+def __getattr__(name: str):
+    if name not in _HOMES:
+        raise AttributeError(f"module 'cloakview' has no attribute {name!r}")
+    value = globals()[name] = _load(name)
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted([*globals(), *__all__])
+
+
+class _Package(types.ModuleType):
+    """``cloakview.render`` is the function; the sub-package of that name is not shadowed.
+
+    Importing ``cloakview.render.*`` makes Python set the package's attribute ``render``
+    to the sub-package; this keeps the name for the public function instead.
+    """
+
+    @property
+    def render(self):
+        return _load("render")
+
+    @render.setter
+    def render(self, value):
+        pass  # the import system recording the sub-package; ``sys.modules`` still holds it
+
+
+sys.modules[__name__].__class__ = _Package

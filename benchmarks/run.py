@@ -2,15 +2,19 @@
 
 Run: python benchmarks/run.py            (prints a table, then the same as JSON)
      python benchmarks/run.py --json     (only the JSON)
+     python benchmarks/run.py --profile  (also where the full-HD cloaked frame's time goes)
 Not a test: the numbers depend on the machine. Every speed is measured in this run,
 numpy and compiled tracer on the same rays, so the ratio is like for like.
 """
 
 import argparse
+import cProfile
 import dataclasses
+import io
 import json
 import os
 import platform
+import pstats
 import resource
 import subprocess
 import sys
@@ -22,6 +26,7 @@ import numpy as np
 from cloakview.optics.cloak import LensChoice, design_cloak
 from cloakview.optics.materials import MATERIALS
 from cloakview.optics.trace import Rays, available_backends, trace
+from cloakview.render.files import write_png
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.mapper import SETUPS
 from cloakview.render.frame.views import _trace_view, render_viewer
@@ -75,12 +80,31 @@ def frame_times():
             repeat=3 if width < 1000 else 1)
         timed = dataclasses.replace(scene, settings=dataclasses.replace(
             scene.settings, wavelengths_nm=wavelengths))
-        start = time.perf_counter()
-        render_viewer(timed, v, pyramids, supersample=ss)
+        with tempfile.TemporaryDirectory() as out:
+            start = time.perf_counter()
+            result = render_viewer(timed, v, pyramids, supersample=ss)
+            for name, image in result.images.items():
+                write_png(os.path.join(out, f"{name}.png"), image)
+            seconds = time.perf_counter() - start
         rows.append({"frame": label, "size": f"{width}x{height}", "supersample": ss,
                      "wavelengths": len(wavelengths), "cloaked_frame_s": round(frame, 3),
-                     "all_views_and_metrics_s": round(time.perf_counter() - start, 3)})
+                     "all_views_and_metrics_s": round(seconds, 3)})
     return rows
+
+
+def frame_profile(lines=25) -> str:
+    """cProfile of one full-HD cloaked frame (3 wavelengths, 2x2): the top functions."""
+    scene = load_scene(str(resources.files("cloakview.sample_scenes") / "gallery" / "scene.toml"))
+    pyramids = TexturePyramids(scene)
+    label, (width, height), ss, wavelengths = FRAMES[-1]
+    v = dataclasses.replace(scene.viewers[0], width_px=width, height_px=height)
+    _trace_view(scene, v, SETUPS["cloaked"], wavelengths, pyramids, ss, keep_records=True)
+    profile = cProfile.Profile()
+    profile.runcall(_trace_view, scene, v, SETUPS["cloaked"], wavelengths, pyramids, ss,
+                    keep_records=True)
+    text = io.StringIO()
+    pstats.Stats(profile, stream=text).sort_stats("tottime").print_stats(lines)
+    return f"profile of the {label} cloaked frame, by own time:\n" + text.getvalue()
 
 
 def sweep_time():
@@ -96,8 +120,10 @@ def sweep_time():
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--skip-sweep", action="store_true",
-                        help="leave out the default sight-line sweep (about 30 s)")
+                        help="leave out the default sight-line sweep (about 15 s)")
     parser.add_argument("--json", action="store_true", help="print only the JSON")
+    parser.add_argument("--profile", action="store_true",
+                        help="after the table, profile one full-HD cloaked frame")
     args = parser.parse_args()
     rates, count, surfaces = tracer_rates()
     frames = frame_times()
@@ -123,15 +149,17 @@ def main():
         print(f"{name:<12}{rate:>22,.0f}")
     print(f"compiled (packets) / numpy: {report['tracer']['compiled_over_numpy']}; "
           f"compiled / per-ray kernel: {report['tracer']['compiled_over_per_ray']}")
-    print(f"\n{'frame':<9}{'size':>11}{'ss':>4}{'wl':>4}{'cloaked s':>11}{'all views s':>13}")
+    print(f"\n{'frame':<9}{'size':>11}{'ss':>4}{'wl':>4}{'cloaked s':>11}{'all + PNGs s':>14}")
     for row in frames:
         print(f"{row['frame']:<9}{row['size']:>11}{row['supersample']:>4}"
               f"{row['wavelengths']:>4}{row['cloaked_frame_s']:>11.3f}"
-              f"{row['all_views_and_metrics_s']:>13.3f}")
+              f"{row['all_views_and_metrics_s']:>14.3f}")
     if sweep is not None:
         print(f"default sight-line sweep (gallery, from a cold cache): {sweep:.1f} s")
     print(f"peak memory: {report['peak_memory_mb']} MB\n")
     print(json.dumps(report, indent=2))
+    if args.profile:
+        print("\n" + frame_profile())
 
 
 if __name__ == "__main__":

@@ -17,7 +17,6 @@ from importlib import metadata
 from pathlib import Path
 
 import cv2
-import matplotlib
 import numpy as np
 from cloakview.optics.errors import InputError
 
@@ -123,9 +122,12 @@ def write_png(path: Path, image_uint8: np.ndarray) -> None:
 
 def figure_bytes(figure, fmt: str) -> bytes:
     """A matplotlib figure as ``png`` (150 dpi) or ``svg`` bytes; SVG text stays text."""
+    import matplotlib  # loaded already: the figure is one of its objects
+
     buffer = io.BytesIO()
+    fast = {"pil_kwargs": {"compress_level": PNG_COMPRESSION}} if fmt == "png" else {}
     with matplotlib.rc_context({"svg.fonttype": "none"}):
-        figure.savefig(buffer, format=fmt, dpi=150)
+        figure.savefig(buffer, format=fmt, dpi=150, **fast)
     return buffer.getvalue()
 
 

@@ -32,7 +32,7 @@ from cloakview.render.scene.loader import load_scene
 from cloakview.render.sweeps import sightlines as sl
 from cloakview.render.sweeps import walk as wk
 from cloakview.render.sweeps import zone as zn
-from cloakview.render.sweeps.jobs import fingerprint, run_jobs
+from cloakview.render.sweeps.jobs import fingerprint, local_pool, run_jobs
 
 
 def scheduler_from(scheduler: str | None) -> str | None:
@@ -188,18 +188,20 @@ def sightlines(scene_path: str | Path, *, out: str | Path, heights=sl.DEFAULT_HE
     context = fingerprint(scene.sources, ideal=ideal, allow_outside=allow_outside_paths)
     reused = 0
 
+    setup_args = (str(scene_path), allow_outside_paths, ideal)
+
     def run(jobs, label):
         nonlocal reused
         rows, count = run_jobs(sl.measure_point, jobs, "sightlines", sl.setup_worker,
-                               (str(scene_path), allow_outside_paths, ideal), context=context,
-                               workers=workers, progress=Progress(len(jobs), label,
-                                                                  enabled=progress),
+                               setup_args, context=context, workers=workers,
+                               progress=Progress(len(jobs), label, enabled=progress),
                                fresh=fresh, files=scene.sources,
-                               scheduler=scheduler_from(scheduler))
+                               scheduler=scheduler_from(scheduler), pool=pool)
         reused += count
         return rows
 
-    found = sl.sweep(run, named, xs, ds, hs, size_px, axis)
+    with local_pool(sl.setup_worker, setup_args, workers) as pool:  # one start, two sweeps
+        found = sl.sweep(run, named, xs, ds, hs, size_px, axis)
     by_height, side_rows = found["floor"], found["elevation"]
     rows = [*(r for subset in by_height.values() for r in subset), *side_rows]
     with outfolder.output_folder(out, scene.sources) as out:

@@ -37,7 +37,7 @@ from cloakview.render.scene.relayout import scene_with_lenses
 from cloakview.render.sweeps import sightlines as sl
 from cloakview.render.sweeps import walk as wk
 from cloakview.render.sweeps import zone as zn
-from cloakview.render.sweeps.jobs import fingerprint, run_jobs
+from cloakview.render.sweeps.jobs import fingerprint, local_pool, run_jobs
 
 #: The numbers of each visitor view the report keeps.
 REPORTED = ("replaced_fraction", "blocked_fraction", "showing_fraction", "hidden_fraction",
@@ -220,9 +220,10 @@ def report(scene_path: str | Path, *, out: str | Path, inventory: str | Path | N
 
         def run(jobs, label):
             return run_jobs(sl.measure_point, jobs, "sightlines", report_state, setup_args,
-                            context=context, files=inputs, workers=workers)[0]
+                            context=context, files=inputs, workers=workers, pool=pool)[0]
 
-        found = sl.sweep(run, named, xs, ds, hs, size_px, axis)
+        with local_pool(report_state, setup_args, workers) as pool:  # one start, two sweeps
+            found = sl.sweep(run, named, xs, ds, hs, size_px, axis)
         floor_plans = []
         for name, h in named.items():
             key = f"floor_{name.replace(' ', '')}"

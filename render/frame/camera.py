@@ -38,16 +38,22 @@ class SampleGrid:
 
 
 def _basis(viewer: Viewer) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Forward, right and up unit vectors of the eye in the room frame."""
-    eye = np.asarray(viewer.eye_mm, float)
-    forward = np.asarray(viewer.look_at_mm, float) - eye
-    forward /= np.linalg.norm(forward)
-    world_up = np.array([0.0, 1.0, 0.0])
-    right = np.cross(world_up, forward)
-    if np.linalg.norm(right) < 1e-9:  # looking straight up or down
-        right = np.array([1.0, 0.0, 0.0])
-    right /= np.linalg.norm(right)
-    return forward, right, np.cross(forward, right)
+    """Forward, right and up unit vectors of the eye in the room frame.
+
+    right = world up (0, 1, 0) x forward and up = forward x right, the cross products
+    written out (a sweep point asks for the basis several times, and ``np.cross`` on
+    3-vectors costs more than the arithmetic).
+    """
+    forward = np.subtract(viewer.look_at_mm, viewer.eye_mm, dtype=float)
+    forward /= math.sqrt(forward @ forward)
+    fx, fy, fz = forward
+    level = math.hypot(fz, fx)
+    if level < 1e-9:  # looking straight up or down
+        rx, rz = 1.0, 0.0
+    else:
+        rx, rz = fz / level, -fx / level
+    right = np.array([rx, 0.0, rz])
+    return forward, right, np.array([fy * rz, fz * rx - fx * rz, -fy * rx])
 
 
 def pixel_directions(viewer: Viewer, supersample: int, row_range=None,

@@ -371,7 +371,8 @@ def _measure(scene, viewer, traced, srgb) -> dict:
         "eye_mm": list(viewer.eye_mm),
         "wavelengths_nm": list(scene.settings.wavelengths_nm),
         **(place or dict.fromkeys(PLACE_KEYS)),
-        "background_ssim": m.background_ssim(srgb["cloaked"], srgb["reference"], through_px),
+        "background_ssim": (m.background_ssim(srgb["cloaked"], srgb["reference"], through_px)
+                            if through_px.sum() >= m.MIN_THROUGH_PIXELS else None),
         "background_shift_arcmin": m.percentiles(shift),
         "background_shift_mm": m.percentiles(shift_mm),
         "transmittance": float(np.mean(seen.throughput)) if any_through else None,

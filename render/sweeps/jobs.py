@@ -15,6 +15,7 @@ reuses an old result. The cache lives outside the deliverable folders: ``$CLOAKV
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import hashlib
 import json
@@ -123,7 +124,7 @@ BATCH_JOBS = 16
 def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: str = "",
              workers=None, progress=None, fresh: bool = False,
              cache: Path | None = None, consume=None, scheduler: str | None = None,
-             files=()) -> tuple[list[dict], int]:
+             files=(), pool: ProcessPoolExecutor | None = None) -> tuple[list[dict], int]:
     """Run ``fn(state, job)`` for every job; return (results in job order, how many reused).
 
     Parameters
@@ -159,6 +160,9 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
     files : sequence of Path
         The input files ``setup`` reads; on a cluster they travel to the workers, so the
         workers need no shared disk.
+    pool : ProcessPoolExecutor, optional
+        A pool from :func:`local_pool` with the same ``setup`` and ``setup_args``, kept
+        for several calls so its workers start (imports, scene, pictures) only once.
 
     Raises
     ------
@@ -192,22 +196,24 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
     reused = len(results)
     if workers is not None and not (isinstance(workers, int) and workers >= 1):
         raise InputError("workers", workers, "must be a whole number, 1 or more")
-    if scheduler:
-        from cloakview.render.sweeps.cluster import run_on_cluster
+    with contextlib.ExitStack() as stack:
+        if scheduler:
+            from cloakview.render.sweeps.cluster import run_on_cluster
 
-        finished = run_on_cluster(fn, todo, setup, setup_args, files, scheduler, workers)
-    else:
-        workers = min(workers or os.cpu_count() or 1, os.cpu_count() or 1)
-        if workers == 1 or len(todo) <= 1:
+            finished = run_on_cluster(fn, todo, setup, setup_args, files, scheduler, workers)
+        elif pool_size(workers) == 1 or len(todo) <= 1:
             finished = _run_here(fn, todo, setup, setup_args)
         else:
-            finished = _run_on_pool(fn, todo, setup, setup_args, workers)
-    failures = []
-    for key, job, result, error in finished:
-        if error is not None:
-            failures.append((job, error))
-        else:
-            results[key] = keep(job, _store(folder, key, result, progress))
+            if pool is None:
+                pool = stack.enter_context(local_pool(setup, setup_args,
+                                                      min(pool_size(workers), len(todo))))
+            finished = _run_on_pool(fn, todo, pool, pool_size(workers))
+        failures = []
+        for key, job, result, error in finished:
+            if error is not None:
+                failures.append((job, error))
+            else:
+                results[key] = keep(job, _store(folder, key, result, progress))
     if failures:
         raise JobsFailed(failures, len(jobs))
     return [results[key] for key in keys], reused
@@ -230,26 +236,44 @@ def _run_here(fn, todo, setup, setup_args):
             yield key, job, None, describe(error)
 
 
-def _run_on_pool(fn, todo, setup, setup_args, workers):
-    """Run the jobs on a local process pool; yield (key, job, result, error) as they finish."""
+def pool_size(workers: int | None) -> int:
+    """How many local processes a sweep uses: ``workers``, default and at most the cores."""
+    cores = os.cpu_count() or 1
+    return min(workers or cores, cores)
+
+
+@contextlib.contextmanager
+def local_pool(setup, setup_args=(), workers: int | None = None):
+    """A local process pool whose workers each build ``setup(*setup_args)`` once.
+
+    Give it to several :func:`run_jobs` calls of one analysis (a sweep and its follow-up)
+    and the workers start once. Processes start with the first job sent, so a sweep
+    answered from the cache starts none.
+    """
+    workers = pool_size(workers)
     threads = max(1, (os.cpu_count() or 1) // workers)
     # "spawn": a forked child of a process whose compiled kernels already ran threads is
     # not safe; fresh interpreters are.
-    size = max(1, min(BATCH_JOBS, len(todo) // (8 * workers)))
-    batches = [todo[i:i + size] for i in range(0, len(todo), size)]
-    with ProcessPoolExecutor(max_workers=min(workers, len(todo)), initializer=_init,
+    with ProcessPoolExecutor(max_workers=workers, initializer=_init,
                              initargs=(setup, setup_args, threads),
                              mp_context=multiprocessing.get_context("spawn")) as pool:
-        futures = {pool.submit(_run_batch, fn, [job for _, job in batch]): batch
-                   for batch in batches}
-        for future in as_completed(futures):
-            batch = futures[future]
-            try:
-                done = future.result()
-            except Exception as error:  # noqa: BLE001 - a worker died: the batch failed
-                done = [(None, describe(error))] * len(batch)
-            for (key, job), (result, error) in zip(batch, done, strict=True):
-                yield key, job, result, error
+        yield pool
+
+
+def _run_on_pool(fn, todo, pool, workers):
+    """Run the jobs on a process pool; yield (key, job, result, error) as they finish."""
+    size = max(1, min(BATCH_JOBS, len(todo) // (8 * workers)))
+    batches = [todo[i:i + size] for i in range(0, len(todo), size)]
+    futures = {pool.submit(_run_batch, fn, [job for _, job in batch]): batch
+               for batch in batches}
+    for future in as_completed(futures):
+        batch = futures[future]
+        try:
+            done = future.result()
+        except Exception as error:  # noqa: BLE001 - a worker died: the batch failed
+            done = [(None, describe(error))] * len(batch)
+        for (key, job), (result, error) in zip(batch, done, strict=True):
+            yield key, job, result, error
 
 
 def _store(folder: Path, key: str, result: dict, progress) -> dict:
