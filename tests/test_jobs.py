@@ -1,10 +1,11 @@
 """The sweep job map: a cache keyed on every input, and no result lost to a failing job."""
 
 import json
+import os
 
 import pytest
 from cloakview.render.cli.main import main
-from cloakview.render.sweeps.jobs import JobsFailed, run_jobs
+from cloakview.render.sweeps.jobs import JobsFailed, local_pool, run_jobs
 from scenes import RING, write_scene
 
 
@@ -33,6 +34,22 @@ def test_one_failing_job_keeps_every_other_result(tmp_path, workers):
                                cache=tmp_path)
     assert reused == 15 and [r["square"] for r in results] == [
         i * i for i in range(16) if i != 7]
+
+
+def _worker_pid(state, job):
+    return {"i": job["i"], "pid": os.getpid()}
+
+
+def test_a_shared_pool_serves_two_calls_with_the_same_workers(tmp_path):
+    # Two passes of one analysis (a sweep, then its margin lines) start the workers once.
+    with local_pool(_setup, (), 2) as pool:
+        first, _ = run_jobs(_worker_pid, [{"i": i} for i in range(40)], "t", _setup,
+                            workers=2, cache=tmp_path, pool=pool)
+        second, _ = run_jobs(_worker_pid, [{"i": i} for i in range(40, 80)], "t", _setup,
+                             workers=2, cache=tmp_path, pool=pool)
+    workers = {r["pid"] for r in first}
+    assert os.getpid() not in workers and {r["pid"] for r in second} <= workers
+    assert [r["i"] for r in first + second] == list(range(80))
 
 
 def _sweep(scene, out, *extra):
