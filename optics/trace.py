@@ -32,6 +32,7 @@ References
 
 from __future__ import annotations
 
+import functools
 import os
 from dataclasses import dataclass
 
@@ -421,12 +422,16 @@ def trace(rays: Rays, elements, housing: Housing | None = None,
     return _trace_compiled(rays, ordered, housing, packets=choice == "compiled")
 
 
-def _trace_compiled(rays: Rays, ordered, housing: Housing | None,
-                    packets: bool = True) -> TraceResult:
+@functools.lru_cache(maxsize=64)
+def _element_table(ordered: tuple, housing: Housing | None, wavelengths: tuple) -> tuple:
+    """The compiled kernels' description of the elements, the housing and the indices.
+
+    Built once per distinct system and wavelength set (elements are frozen, so equal
+    systems share it); a sweep traces the same system thousands of times. The kernels
+    only read these arrays.
+    """
     from cloakview.optics import trace_kernel as kernel
 
-    count = len(rays)
-    wavelengths, wl_index = _wavelength_table(rays.wavelength_nm)
     codes = {Refracting: kernel.REFRACT, IdealLens: kernel.IDEAL, Probe: kernel.PROBE}
     n_el = len(ordered)
     kind = np.array([codes[type(e)] for e in ordered], np.int8)
@@ -450,8 +455,8 @@ def _trace_compiled(rays: Rays, ordered, housing: Housing | None,
     n_after = np.ones((max(n_el, 1), len(wavelengths)))
     for i, e in enumerate(ordered):
         if isinstance(e, Refracting):
-            n_before[i] = e.before.index(wavelengths)
-            n_after[i] = e.after.index(wavelengths)
+            n_before[i] = e.before.index(np.array(wavelengths))
+            n_after[i] = e.after.index(np.array(wavelengths))
     if housing is None:
         box, panel_index = np.zeros(7), 0
     else:
@@ -459,12 +464,23 @@ def _trace_compiled(rays: Rays, ordered, housing: Housing | None,
                         housing.panel_half_width_mm, housing.panel_half_height_mm,
                         housing.tube_radius_mm, housing.tube_end_mm])
         panel_index = sum(1 for e in ordered if e.z_mm < housing.panel_z_mm)
+    return (kind, ez, curv, semi, focal, coat, slot, n_before, n_after, frames, box,
+            panel_index)
+
+
+def _trace_compiled(rays: Rays, ordered, housing: Housing | None,
+                    packets: bool = True) -> TraceResult:
+    from cloakview.optics import trace_kernel as kernel
+
+    count = len(rays)
+    wavelengths, wl_index = _wavelength_table(rays.wavelength_nm)
+    table = _element_table(tuple(ordered), housing, tuple(wavelengths.tolist()))
+    probes = [e for e in ordered if isinstance(e, Probe)]
     state = np.empty((7, count))
     fate = np.empty(count, np.int8)
     entered = np.empty(count, bool)
     cross = np.full((len(probes), 3, count), np.nan)
-    elements = (kind, ez, curv, semi, focal, coat, slot, n_before, n_after, frames, box,
-                panel_index, state, fate, entered, cross)
+    elements = (*table, state, fate, entered, cross)
     start = (rays.x, rays.y, rays.z, rays.dx, rays.dy, rays.dz, rays.throughput)
     if packets:
         kernel.trace_packets(*start, *kernel.packet_table(wl_index), *elements)

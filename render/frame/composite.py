@@ -269,6 +269,8 @@ def resolve_samples(samples: np.ndarray, grid_shape, supersample: int) -> np.nda
     """
     pupil, rows, cols = grid_shape
     s = supersample
+    if pupil == 1 and s == 1:  # one sample per pixel: nothing to average
+        return np.array(samples, np.float32).reshape(rows, cols, -1)
     if not reference_path():
         flat = np.ascontiguousarray(samples, np.float32).reshape(len(samples), -1)
         out = np.empty((rows // s, cols // s, flat.shape[1]), np.float32)
