@@ -194,20 +194,19 @@ def run_jobs(fn, jobs: list[dict], kind: str, setup, setup_args=(), *, context: 
             queued.add(key)
             todo.append((key, job))
     reused = len(results)
-    if workers is not None and not (isinstance(workers, int) and workers >= 1):
-        raise InputError("workers", workers, "must be a whole number, 1 or more")
+    size = pool_size(workers)
     with contextlib.ExitStack() as stack:
         if scheduler:
             from cloakview.render.sweeps.cluster import run_on_cluster
 
             finished = run_on_cluster(fn, todo, setup, setup_args, files, scheduler, workers)
-        elif pool_size(workers) == 1 or len(todo) <= 1:
+        elif size == 1 or len(todo) <= 1:
             finished = _run_here(fn, todo, setup, setup_args)
         else:
             if pool is None:
                 pool = stack.enter_context(local_pool(setup, setup_args,
-                                                      min(pool_size(workers), len(todo))))
-            finished = _run_on_pool(fn, todo, pool, pool_size(workers))
+                                                      min(size, len(todo))))
+            finished = _run_on_pool(fn, todo, pool, size)
         failures = []
         for key, job, result, error in finished:
             if error is not None:
@@ -237,7 +236,15 @@ def _run_here(fn, todo, setup, setup_args):
 
 
 def pool_size(workers: int | None) -> int:
-    """How many local processes a sweep uses: ``workers``, default and at most the cores."""
+    """How many local processes a sweep uses: ``workers``, default and at most the cores.
+
+    Raises
+    ------
+    InputError
+        For a ``workers`` value that is not a whole number of at least 1.
+    """
+    if workers is not None and not (isinstance(workers, int) and workers >= 1):
+        raise InputError("workers", workers, "must be a whole number, 1 or more")
     cores = os.cpu_count() or 1
     return min(workers or cores, cores)
 
