@@ -36,20 +36,28 @@ def test_one_failing_job_keeps_every_other_result(tmp_path, workers):
         i * i for i in range(16) if i != 7]
 
 
-def _worker_pid(state, job):
-    return {"i": job["i"], "pid": os.getpid()}
+def _counted_setup(log):
+    with open(log, "a") as handle:  # one line per worker start
+        handle.write(f"{os.getpid()}\n")
+    return "state"
+
+
+def _square(state, job):
+    return {"i": job["i"], "square": job["i"] ** 2}
 
 
 def test_a_shared_pool_serves_two_calls_with_the_same_workers(tmp_path):
-    # Two passes of one analysis (a sweep, then its margin lines) start the workers once.
-    with local_pool(_setup, (), 2) as pool:
-        first, _ = run_jobs(_worker_pid, [{"i": i} for i in range(40)], "t", _setup,
-                            workers=2, cache=tmp_path, pool=pool)
-        second, _ = run_jobs(_worker_pid, [{"i": i} for i in range(40, 80)], "t", _setup,
-                             workers=2, cache=tmp_path, pool=pool)
-    workers = {r["pid"] for r in first}
-    assert os.getpid() not in workers and {r["pid"] for r in second} <= workers
-    assert [r["i"] for r in first + second] == list(range(80))
+    # Two passes of one analysis (a sweep, then its margin lines) start the workers once:
+    # a pool of 2 never starts more than 2, where a pool per call would start 2 each.
+    log = tmp_path / "starts.txt"
+    with local_pool(_counted_setup, (str(log),), 2) as pool:
+        for first in (0, 40):
+            rows, _ = run_jobs(_square, [{"i": i} for i in range(first, first + 40)], "t",
+                               _counted_setup, (str(log),), workers=2, cache=tmp_path,
+                               pool=pool)
+            assert [r["square"] for r in rows] == [i * i for i in range(first, first + 40)]
+    starts = log.read_text().split()
+    assert 1 <= len(starts) <= 2 and str(os.getpid()) not in starts
 
 
 def _sweep(scene, out, *extra):
