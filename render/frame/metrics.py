@@ -98,13 +98,15 @@ def place_split(naked_object: np.ndarray, cloaked_object: np.ndarray,
 
 
 def background_ssim(cloaked_srgb: np.ndarray, reference_srgb: np.ndarray,
-                    through_mask: np.ndarray):
+                    through_mask: np.ndarray, encode=None):
     """Mean SSIM [1] over ``through_mask`` pixels (None when the through-view is tiny).
 
     Pixels outside the mask are copied from the reference first, so the housing
     around the through-view does not enter the score. Only a crop round the mask is
     scored: its margin of half the 7-pixel window keeps every masked pixel's window
-    inside it, so the value is the one the whole picture would give.
+    inside it, so the value is the one the whole picture would give. ``encode``, if
+    given, turns the two images into the values to score (e.g. linear light into sRGB),
+    applied to the crop only.
     """
     if through_mask.sum() < MIN_THROUGH_PIXELS:
         return None
@@ -117,8 +119,10 @@ def background_ssim(cloaked_srgb: np.ndarray, reference_srgb: np.ndarray,
     if r1 - r0 < size or c1 - c0 < size:  # too small a crop: score the whole picture
         r0, r1, c0, c1 = 0, h, 0, w
     mask = through_mask[r0:r1, c0:c1]
-    reference = reference_srgb[r0:r1, c0:c1]
-    test = np.where(mask[..., None], cloaked_srgb[r0:r1, c0:c1], reference)
+    reference, cloaked = reference_srgb[r0:r1, c0:c1], cloaked_srgb[r0:r1, c0:c1]
+    if encode is not None:
+        reference, cloaked = encode(reference), encode(cloaked)
+    test = np.where(mask[..., None], cloaked, reference)
     _, ssim_map = structural_similarity(reference, test, channel_axis=-1, data_range=1.0,
                                         full=True, win_size=size)
     return float(ssim_map.mean(axis=-1)[mask].mean())

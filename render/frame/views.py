@@ -288,8 +288,8 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
                                        pyramids, ss, keep_records=name != "naked")
         if progress:
             progress(f"{viewer.name}: {name}")
+    metrics = _measure(scene, viewer, traced)
     srgb = _Encoded(traced)
-    metrics = _measure(scene, viewer, traced, srgb)
     images = {name: _picture(name, traced, srgb) for name in views}
     return ViewerRender(viewer, images, metrics, time.perf_counter() - start,
                         traced["cloaked"].through, traced["cloaked"].entered)
@@ -298,8 +298,8 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
 class _Encoded(dict):
     """The sRGB encoding of each traced view's image, made on first use only.
 
-    The metrics need it only when some pixels see through the device (for SSIM), the
-    pictures only for the overlays; a sweep point that sees nothing through encodes none.
+    The overlay pictures share it (``difference`` and ``vanish`` both use the cloaked
+    view's); a render that makes no overlay encodes nothing.
     """
 
     def __init__(self, traced: dict[str, TracedView]):
@@ -342,7 +342,7 @@ def render_picture(scene: Scene, viewer: Viewer, pyramids: TexturePyramids, view
     return _picture(view, traced, _Encoded(traced))
 
 
-def _measure(scene, viewer, traced, srgb) -> dict:
+def _measure(scene, viewer, traced) -> dict:
     cloaked, naked = traced["cloaked"], traced["naked"]
     records = cloaked.records
     seen = records[nearest_to_d_line(list(records))]
@@ -371,8 +371,8 @@ def _measure(scene, viewer, traced, srgb) -> dict:
         "eye_mm": list(viewer.eye_mm),
         "wavelengths_nm": list(scene.settings.wavelengths_nm),
         **(place or dict.fromkeys(PLACE_KEYS)),
-        "background_ssim": (m.background_ssim(srgb["cloaked"], srgb["reference"], through_px)
-                            if through_px.sum() >= m.MIN_THROUGH_PIXELS else None),
+        "background_ssim": m.background_ssim(cloaked.image, traced["reference"].image,
+                                             through_px, encode=linear_to_srgb),
         "background_shift_arcmin": m.percentiles(shift),
         "background_shift_mm": m.percentiles(shift_mm),
         "transmittance": float(np.mean(seen.throughput)) if any_through else None,
