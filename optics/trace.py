@@ -479,7 +479,7 @@ def _trace_compiled(rays: Rays, ordered, housing: Housing | None,
     state = np.empty((7, count))
     fate = np.empty(count, np.int8)
     entered = np.empty(count, bool)
-    cross = np.full((len(probes), 3, count), np.nan)
+    cross = np.empty((len(probes), 3, count))  # the kernels write every entry
     elements = (*table, state, fate, entered, cross)
     start = (rays.x, rays.y, rays.z, rays.dx, rays.dy, rays.dz, rays.throughput)
     if packets:

@@ -118,7 +118,8 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
         x, y, z, dx, dy, dz, throughput at the end.
     out_fate : int8 array (N,); out_entered : bool array (N,)
     cross : float64 array (P, 3, N)
-        Probe crossings x, y, throughput (pre-filled with NaN).
+        Probe crossings x, y, throughput; NaN where a ray did not reach the probe (the
+        kernel fills them, so the array may start uninitialised).
     """
     n = x0.shape[0]
     n_el = kind.shape[0]
@@ -126,6 +127,8 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
     panel_z, hole_r, half_w, half_h = housing[1], housing[2], housing[3], housing[4]
     tube_r, tube_end_z = housing[5], housing[6]
     for i in numba.prange(n):
+        for k in range(cross.shape[0]):
+            cross[k, 0, i] = cross[k, 1, i] = cross[k, 2, i] = np.nan
         x, y, z = x0[i], y0[i], z0[i]
         dx, dy, dz = dx0[i], dy0[i], dz0[i]
         tp = tp0[i]
@@ -354,12 +357,12 @@ def _probe_lanes(L, ze, zt, past_end, tube_r, housing, cross, probe, order, firs
         L[_Y * LANES + j] = y + t * dy if go else y
         L[_Z * LANES + j] = ze if go else z
         L[_ACT * LANES + j] = 1.0 if go else 0.0
-    for j in range(count):
-        if L[_ACT * LANES + j] > 0.5:
-            i = order[first + j]
-            cross[probe, 0, i] = L[_X * LANES + j]
-            cross[probe, 1, i] = L[_Y * LANES + j]
-            cross[probe, 2, i] = L[_TP * LANES + j]
+    for j in range(count):  # every packet meets every probe: all entries are written
+        reached = L[_ACT * LANES + j] > 0.5
+        i = order[first + j]
+        cross[probe, 0, i] = L[_X * LANES + j] if reached else np.nan
+        cross[probe, 1, i] = L[_Y * LANES + j] if reached else np.nan
+        cross[probe, 2, i] = L[_TP * LANES + j] if reached else np.nan
 
 
 @numba.njit(cache=True, inline="always")

@@ -25,12 +25,8 @@ import math
 import cv2
 import numpy as np
 from cloakview.optics.trace import MOUNT, PANEL, PASSED, chosen_backend
-from cloakview.render.frame.composite_kernel import (
-    add_housing,
-    pack_pyramid,
-    resolve_blocks,
-    sample_over,
-)
+from cloakview.render.frame import composite_kernel as kernel
+from cloakview.render.frame.composite_kernel import pack_pyramid
 from cloakview.render.frame.mapper import RayMap
 from cloakview.render.scene.model import Scene
 
@@ -125,7 +121,7 @@ def sample_layer(pyramid: list[np.ndarray], u: np.ndarray, v: np.ndarray,
     """Premultiplied RGBA (N, 4) of the rays at texture coordinates ``u``, ``v`` (reference).
 
     OpenCV's bilinear ``remap`` per level and numpy gathers; the compiled
-    :func:`~cloakview.render.frame.composite_kernel.sample_over` samples the same way in
+    :func:`~cloakview.render.frame.composite_kernel.layer_over` samples the same way in
     one pass.
 
     ``level`` is each ray's mip level (see :func:`footprint_levels`), blended between
@@ -191,20 +187,31 @@ def _housing_colour(scene: Scene, ray_map: RayMap) -> np.ndarray:
     return colour
 
 
-def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
-                   grid_shape=None, levels: dict | None = None):
+#: ``ids`` of a whole grid (see :func:`composite_kernel.layer_over`).
+_WHOLE_GRID = np.zeros(0, np.int64)
+
+
+def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids, grid_shape,
+                   levels: dict | None = None, ids: np.ndarray | None = None):
     """Linear RGB (N, 3) of every ray, hidden-object weight (N,) and mip levels used [1].
 
     Parameters
     ----------
-    grid_shape : tuple, optional
-        (pupil, rows, columns) of the sample grid: texture footprints come from
-        neighbouring samples.
-    levels : dict, optional
-        Mip level per ray for each layer name, instead of ``grid_shape`` (for a
-        subset of a grid whose levels are already known).
+    grid_shape : tuple
+        (pupil, rows, columns) of the sample grid the rays belong to: texture footprints
+        come from neighbouring samples.
+    levels, ids : optional
+        For a subset of a grid's rays: ray k is grid sample ``ids[k]``, and ``levels``
+        holds each layer's mip level per grid sample (as this function returns them for
+        the whole grid).
+
+    Returns
+    -------
+    rgb, hidden, levels
+        ``levels`` maps each layer's name to its mip level per grid sample.
     """
     n = len(ray_map.result.fate)
+    _, rows, cols = grid_shape
     rgb = np.zeros((n, 3), np.float32)
     clear = np.ones(n, np.float32)
     hidden = np.zeros(n, np.float32)
@@ -212,14 +219,17 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
     compiled = bool(n) and not reference_path()
     for hit in ray_map.hits:  # z order: nearest first
         name = hit.layer.name
-        used[name] = levels[name] if levels is not None else footprint_levels(
-            hit.u, hit.v, grid_shape)
         if compiled:
-            sample_over(*pyramids.packed(name), hit.u, hit.v, used[name],
-                        np.float32(hit.layer.opacity), hit.throughput,
-                        hit.layer.role == "hidden", rgb, clear, hidden)
+            used[name] = np.empty(n, np.float32) if ids is None else levels[name]
+            kernel.layer_over(hit.x_mm, hit.y_mm, hit.throughput, hit.frame, rows, cols,
+                              _WHOLE_GRID if ids is None else ids, used[name],
+                              *pyramids.packed(name), np.float32(hit.layer.opacity),
+                              hit.layer.role == "hidden", rgb, clear, hidden)
             continue
-        rgba = sample_layer(pyramids.levels[name], hit.u, hit.v, used[name])
+        u, v = hit.texels()
+        used[name] = footprint_levels(u, v, grid_shape) if ids is None else levels[name]
+        rgba = sample_layer(pyramids.levels[name], u, v,
+                            used[name] if ids is None else used[name][ids])
         rgba *= np.float32(hit.layer.opacity)
         alpha = rgba[:, 3]
         tp = hit.throughput.astype(np.float32)
@@ -230,13 +240,51 @@ def composite_rays(scene: Scene, ray_map: RayMap, pyramids: TexturePyramids,
         clear *= 1.0 - alpha
     if compiled:
         r = ray_map.result
-        add_housing(r.fate, r.entered, r.x, r.y, r.z, r.throughput, _palette(scene), clear,
-                    rgb, np.array([PASSED, PANEL, MOUNT]), np.array([
-                        _LIGHT[0], _LIGHT[1], _AMBIENT + (1 - _AMBIENT) * max(0.0, -_LIGHT[2]),
-                        _AMBIENT, scene.housing.panel_z_mm, _TUBE_DEPTH_MM]))
+        kernel.add_housing(r.fate, r.entered, r.x, r.y, r.z, r.throughput, _palette(scene),
+                           clear, rgb, np.array([PASSED, PANEL, MOUNT]), np.array([
+                               _LIGHT[0], _LIGHT[1],
+                               _AMBIENT + (1 - _AMBIENT) * max(0.0, -_LIGHT[2]),
+                               _AMBIENT, scene.housing.panel_z_mm, _TUBE_DEPTH_MM]))
     else:
         rgb += clear[:, None] * _housing_colour(scene, ray_map)
     return rgb, hidden, used
+
+
+def mix_wavelength(mixed: np.ndarray, ids: np.ndarray, rgb: np.ndarray, base: np.ndarray,
+                   weight: np.ndarray) -> None:
+    """Mix one more wavelength into a band's colours, in place.
+
+    ``base`` (N, 3) holds every ray's colour at the design wavelength and ``mixed`` starts
+    as a copy of it; ``rgb`` (K, 3) are the colours of the rays ``ids`` at another
+    wavelength (the rays that meet no glass keep their colour at every wavelength), and
+    ``weight`` (3,) that wavelength's channel weights (:func:`channel_weights`). Since each
+    channel's weights sum to one, after every wavelength ``mixed`` is their weighted sum.
+    """
+    if len(ids) and not reference_path():
+        kernel.mix_wavelength(mixed, ids, rgb, base, np.asarray(weight, float))
+        return
+    mixed[ids] += (rgb - base[ids]) * weight
+
+
+def resolve_coverage(hidden: np.ndarray, ray_map: RayMap, grid_shape,
+                     supersample: int) -> np.ndarray:
+    """Each pixel's share (H, W, 4) of rays hidden, entered, through and replaced.
+
+    ``hidden`` is each ray's hidden-object weight; entered: rays that entered the viewing
+    hole; through: that passed the whole device; replaced: through and not hidden (the
+    background seen through the lenses).
+    """
+    pupil, rows, cols = grid_shape
+    r = ray_map.result
+    if len(hidden) and not reference_path():
+        out = np.empty((rows // supersample, cols // supersample, 4), np.float32)
+        kernel.resolve_coverage(hidden, r.entered, r.fate, PASSED, pupil, rows, cols,
+                                supersample, out)
+        return out
+    through = ray_map.through_device.astype(np.float32)
+    samples = np.stack([hidden, r.entered.astype(np.float32), through,
+                        through * (1.0 - hidden)], axis=1)
+    return resolve_samples(samples, grid_shape, supersample)
 
 
 def channel_weights(wavelengths_nm) -> np.ndarray:
@@ -274,7 +322,7 @@ def resolve_samples(samples: np.ndarray, grid_shape, supersample: int) -> np.nda
     if not reference_path():
         flat = np.ascontiguousarray(samples, np.float32).reshape(len(samples), -1)
         out = np.empty((rows // s, cols // s, flat.shape[1]), np.float32)
-        resolve_blocks(flat, pupil, rows, cols, s, out)
+        kernel.resolve_blocks(flat, pupil, rows, cols, s, out)
         return out
     blocks = samples.reshape(pupil, rows // s, s, cols // s, s, -1)
     total = np.zeros((rows // s, cols // s, blocks.shape[-1]), np.float64)

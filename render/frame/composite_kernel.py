@@ -1,9 +1,9 @@
-"""Compiled compositing: texture sampling, the over operator and the housing colour.
+"""Compiled compositing: sampling, over-blending, housing colour, wavelength mix, resolve.
 
-Each kernel is one pass over the rays, with no gathers or scatters; the numpy and OpenCV
-code in :mod:`cloakview.render.frame.composite` stays the reference.
+Each kernel is one pass over the rays; the numpy and OpenCV code in
+:mod:`cloakview.render.frame.composite` stays the reference.
 
-:func:`sample_over` samples as :func:`cloakview.render.frame.composite.sample_layer` does
+:func:`layer_over` samples as :func:`cloakview.render.frame.composite.sample_layer` does
 with OpenCV and numpy (that stays the reference and the tests hold the two equal):
 each ray's colour is the bilinear sample of the two pyramid levels nearest its mip level,
 blended by the distance to each [1]. Bilinear weights and borders are those of OpenCV's
@@ -74,15 +74,73 @@ def _sample_one(flat, offsets, heights, widths, u, v, level):
     return acc
 
 
-@numba.njit(parallel=True, cache=True)
-def sample_over(flat, offsets, heights, widths, u, v, level, opacity, throughput,
-                is_hidden, rgb, clear, hidden):
-    """Sample one layer and lay it over what is in front, in place (the "over" operator).
+@numba.njit(cache=True, inline="always")
+def _texel(x, y, frame):
+    """Texture coordinates (u, v) [texels, float32] of the point (x, y) [mm] on a layer.
 
-    For each ray: the layer's premultiplied colour times ``opacity`` and the ray's
-    ``throughput`` (NaN counts as 0) is added to ``rgb`` weighted by ``clear`` (the light
-    the nearer layers let through); a hidden layer adds its coverage to ``hidden``;
-    ``clear`` is multiplied by one minus the layer's alpha [3].
+    ``frame``: left and top edge [mm], width and height [mm] and [texels], as
+    :attr:`cloakview.render.frame.mapper.LayerHit.frame`; the arithmetic is that of
+    :meth:`~cloakview.render.frame.mapper.LayerHit.texels`.
+    """
+    u = np.float32((x - frame[0]) / frame[2] * frame[4] - 0.5)
+    v = np.float32((frame[1] - y) / frame[3] * frame[5] - 0.5)
+    return u, v
+
+
+@numba.njit(cache=True, inline="always")
+def _wider(footprint, u, v, i, k):
+    """``footprint`` or the distance [texels] from sample ``i`` to ``k``, if larger.
+
+    The larger distance in u or v counts; a sample that missed the layer (NaN) changes
+    nothing.
+    """
+    du = np.float32(abs(u[k] - u[i]))
+    dv = np.float32(abs(v[k] - v[i]))
+    if du > footprint:
+        footprint = du
+    if dv > footprint:
+        footprint = dv
+    return footprint
+
+
+@numba.njit(cache=True, inline="always")
+def _grid_level(u, v, i, rows, cols):
+    """Mip level of grid sample ``i`` from how far its four neighbours land [1].
+
+    As :func:`cloakview.render.frame.composite.footprint_levels`: the largest distance in
+    u or v to the next sample along a row or a column (to the previous one where there is
+    no next), at least one texel, as a base-2 logarithm.
+    """
+    footprint = np.float32(1.0)
+    c = i % cols
+    r = (i // cols) % rows
+    if c + 1 < cols:
+        footprint = _wider(footprint, u, v, i, i + 1)
+    if c > 0:
+        footprint = _wider(footprint, u, v, i, i - 1)
+    if r + 1 < rows:
+        footprint = _wider(footprint, u, v, i, i + cols)
+    if r > 0:
+        footprint = _wider(footprint, u, v, i, i - cols)
+    return np.float32(math.log2(footprint))
+
+
+@numba.njit(parallel=True, cache=True)
+def layer_over(x, y, throughput, frame, rows, cols, ids, levels, flat, offsets, heights,
+               widths, opacity, is_hidden, rgb, clear, hidden):
+    """Locate, sample and lay one layer over what is in front, in place ("over" [3]).
+
+    For each ray: its texture coordinates from its crossing point (``x``, ``y`` [mm]; NaN:
+    it missed the plane) and the layer's ``frame`` (see :func:`_texel`); its mip level;
+    the layer's premultiplied colour times ``opacity`` and the ray's ``throughput`` (NaN
+    counts as 0), added to ``rgb`` weighted by ``clear`` (the light the nearer layers let
+    through); a hidden layer adds its coverage to ``hidden``; ``clear`` is multiplied by
+    one minus the layer's alpha.
+
+    With ``ids`` of length 0, ray i is sample i of a grid of ``rows`` x ``cols`` samples
+    (times any number of pupil points): its mip level comes from its neighbours (see
+    :func:`_grid_level`) and is written to ``levels[i]``. Otherwise ray i is grid sample
+    ``ids[i]`` and its level is read from ``levels[ids[i]]``.
 
     References
     ----------
@@ -90,10 +148,24 @@ def sample_over(flat, offsets, heights, widths, u, v, level, opacity, throughput
        Graphics 18(3), 253-259.
     """
     one = np.float32(1.0)
-    for i in numba.prange(len(u)):
-        if math.isnan(u[i]) or math.isnan(v[i]):
+    on_grid = ids.shape[0] == 0
+    n = x.shape[0]
+    us = np.empty(n, np.float32)
+    vs = np.empty(n, np.float32)
+    for i in numba.prange(n):
+        us[i], vs[i] = _texel(x[i], y[i], frame)
+    for i in numba.prange(n):
+        u, v = us[i], vs[i]
+        if math.isnan(u) or math.isnan(v):
+            if on_grid:
+                levels[i] = np.float32(0.0)
             continue
-        rgba = _sample_one(flat, offsets, heights, widths, u[i], v[i], level[i])
+        if on_grid:
+            level = _grid_level(us, vs, i, rows, cols)
+            levels[i] = level
+        else:
+            level = levels[ids[i]]
+        rgba = _sample_one(flat, offsets, heights, widths, u, v, level)
         alpha = rgba[3] * opacity
         tp = np.float32(throughput[i])
         if math.isnan(tp):
@@ -164,3 +236,50 @@ def resolve_blocks(samples, pupil, rows, cols, s, out):
                         for j in range(s):
                             total += np.float64(samples[row + j, k])
                 out[r, c, k] = np.float32(total * scale)
+
+
+@numba.njit(parallel=True, cache=True)
+def mix_wavelength(mixed, ids, rgb, base, weight):
+    """Mix one more wavelength's colours ``rgb`` of the rays ``ids`` into ``mixed``, in place.
+
+    ``mixed[ids[k]] += weight * (rgb[k] - base[ids[k]])`` per channel, with the arithmetic
+    of the numpy reference (a float32 difference, float64 weights, the sum rounded to
+    float32); see :func:`cloakview.render.frame.composite.mix_wavelength`.
+    """
+    for k in numba.prange(ids.shape[0]):
+        i = ids[k]
+        for c in range(3):
+            mixed[i, c] = np.float32(mixed[i, c] + weight[c] * (rgb[k, c] - base[i, c]))
+
+
+@numba.njit(cache=True, parallel=True)
+def resolve_coverage(hidden, entered, fate, passed, pupil, rows, cols, s, out):
+    """Each pixel's mean of four per-ray coverages into ``out`` (H, W, 4).
+
+    Per ray: ``hidden`` (float32), entered (1 or 0), through (entered and ``fate`` equal to
+    ``passed``: 1 or 0) and replaced (through times one minus hidden, in float32); summed
+    in float64 in the order of :func:`resolve_blocks`, so the values equal its result on
+    those four columns.
+    """
+    height, width, _ = out.shape
+    scale = 1.0 / (pupil * s * s)
+    one = np.float32(1.0)
+    for r in numba.prange(height):
+        for c in range(width):
+            t_hidden = t_entered = t_through = t_replaced = 0.0
+            for p in range(pupil):
+                for i in range(s):
+                    row = (p * rows + r * s + i) * cols + c * s
+                    for j in range(s):
+                        k = row + j
+                        h = hidden[k]
+                        t_hidden += np.float64(h)
+                        if entered[k]:
+                            t_entered += 1.0
+                            if fate[k] == passed:
+                                t_through += 1.0
+                                t_replaced += np.float64(one - h)
+            out[r, c, 0] = np.float32(t_hidden * scale)
+            out[r, c, 1] = np.float32(t_entered * scale)
+            out[r, c, 2] = np.float32(t_through * scale)
+            out[r, c, 3] = np.float32(t_replaced * scale)

@@ -1,8 +1,9 @@
 """The backward ray mapper: which layer each eye ray sees, where on its picture, with what weight.
 
 The mapper asks the tracer (``optics.trace``) to carry the eye rays through the lens
-system and the housing; every layer is a probe plane. It then turns crossing
-points into texture coordinates and hands the compositor a :class:`RayMap`.
+system and the housing; every layer is a probe plane. It hands the compositor a
+:class:`RayMap`: each layer's crossing points and the frame that turns them into
+texture coordinates.
 """
 
 from __future__ import annotations
@@ -34,14 +35,34 @@ SETUPS = {
 
 @dataclass
 class LayerHit:
-    """Texture coordinates [pixels] of the rays that cross one layer inside its picture."""
+    """Where the rays cross one layer's plane [mm] and the power they carry there.
+
+    Rays that never reached the plane have NaN coordinates.
+    """
 
     layer: Layer
-    u: np.ndarray
-    v: np.ndarray
-    throughput: np.ndarray
     x_mm: np.ndarray
     y_mm: np.ndarray
+    throughput: np.ndarray
+
+    @property
+    def frame(self) -> np.ndarray:
+        """The layer's picture frame as :meth:`texels` and the compiled compositor read it.
+
+        Left and top edge [mm], width and height [mm], width and height [texels] (float64).
+        """
+        layer = self.layer
+        h, w = layer.texture.shape[:2]
+        return np.array([layer.center_x_mm - layer.width_mm / 2.0,
+                         layer.center_y_mm + layer.height_mm / 2.0,
+                         layer.width_mm, layer.height_mm, w, h], float)
+
+    def texels(self) -> tuple[np.ndarray, np.ndarray]:
+        """Texture coordinates u, v [texels, float32; 0 is the first texel's centre]."""
+        left, top, width_mm, height_mm, w, h = self.frame
+        u = (self.x_mm - left) / width_mm * w - 0.5
+        v = (top - self.y_mm) / height_mm * h - 0.5
+        return u.astype(np.float32), v.astype(np.float32)
 
 
 @dataclass
@@ -69,14 +90,6 @@ def map_rays(scene: Scene, rays, setup: Setup) -> RayMap:
     if setup.lenses:
         elements = list(scene.system.surfaces) + elements
     result = trace(rays, elements, scene.housing if setup.housing else None)
-    hits = []
-    for layer in layers:
-        crossing = result.crossings[layer.name]
-        h, w = layer.texture.shape[:2]
-        left = layer.center_x_mm - layer.width_mm / 2.0
-        top = layer.center_y_mm + layer.height_mm / 2.0
-        u = (crossing.x - left) / layer.width_mm * w - 0.5
-        v = (top - crossing.y) / layer.height_mm * h - 0.5
-        hits.append(LayerHit(layer, u.astype(np.float32), v.astype(np.float32),
-                             crossing.throughput, crossing.x, crossing.y))
+    hits = [LayerHit(layer, result.crossings[layer.name].x, result.crossings[layer.name].y,
+                     result.crossings[layer.name].throughput) for layer in layers]
     return RayMap(hits, result)

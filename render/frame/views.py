@@ -27,6 +27,8 @@ from cloakview.render.frame.composite import (
     TexturePyramids,
     channel_weights,
     composite_rays,
+    mix_wavelength,
+    resolve_coverage,
     resolve_samples,
 )
 from cloakview.render.frame.mapper import SETUPS, map_rays
@@ -170,6 +172,8 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
     With real lenses, the design wavelength is traced first for every ray; the other
     wavelengths re-trace only the rays that entered the device (the rest meet no
     glass, so their colour does not depend on wavelength) and reuse its mip levels.
+    Each ray's colours are mixed over the wavelengths before the band is resolved into
+    pixels, once.
     """
     weights = channel_weights(wavelengths)
     dispersive = setup.lenses and any(isinstance(s, Refracting) for s in scene.system.surfaces)
@@ -180,8 +184,7 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
     wall = _front_background(scene).name
     h, w = viewer.height_px, viewer.width_px
     image = np.zeros((h, w, 3), np.float32)
-    cover = {name: np.zeros((h, w), np.float32)
-             for name in ("hidden", "entered", "through", "replaced")}
+    cover = np.zeros((h, w, 4), np.float32)  # hidden, entered, through, replaced
     parts = {wl: [] for wl in kept}
     offset = 0
     for r0, r1 in _bands(viewer, supersample):
@@ -190,27 +193,20 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
         rows = slice(r0 // supersample, r1 // supersample)
         ray_map = map_rays(scene, rays, setup)
         base, hidden, levels = composite_rays(scene, ray_map, pyramids, shape)
+        cover[rows] = resolve_coverage(hidden, ray_map, shape, supersample)
         entered = np.flatnonzero(ray_map.result.entered)
-        cover["hidden"][rows] = resolve_samples(hidden, shape, supersample)[..., 0]
-        through = ray_map.through_device
-        for name, values in (("entered", ray_map.result.entered), ("through", through),
-                             ("replaced", through * (1.0 - hidden))):
-            cover[name][rows] = resolve_samples(values.astype(np.float32), shape,
-                                                supersample)[..., 0]
+        mixed = base.copy() if len(order) > 1 else base
         for wl in order:
             if wl == design:
-                rgb, sub_map, ids = base, ray_map, None  # every ray, in order
+                sub_map, ids = ray_map, None  # every ray, in order
             else:
                 sub = _subset(rays, entered)
                 sub.wavelength_nm[:] = wl
                 sub_map = map_rays(scene, sub, setup)
-                sub_rgb, _, _ = composite_rays(scene, sub_map, pyramids, levels={
-                    name: level[entered] for name, level in levels.items()})
-                rgb = base.copy()
-                rgb[entered] = sub_rgb
+                sub_rgb, _, _ = composite_rays(scene, sub_map, pyramids, shape, levels, entered)
+                mix_wavelength(mixed, entered, sub_rgb, base,
+                               weights[list(wavelengths).index(wl)])
                 ids = entered
-            weight = weights[list(wavelengths).index(wl)] if dispersive else 1.0
-            image[rows] += resolve_samples(rgb, shape, supersample) * weight
             if wl in kept:
                 pick = _record_rows(ids, offset, stride, len(rays),
                                     sub_map.through_device if setup.lenses else None)
@@ -218,12 +214,13 @@ def _trace_view(scene, viewer, setup, wavelengths, pyramids, supersample,
                 index = offset + (pick if ids is None else ids[pick])
                 parts[wl].append((index, sub_map.result.throughput[pick], crossing.x[pick],
                                   crossing.y[pick]))
+        image[rows] = resolve_samples(mixed, shape, supersample)
         offset += grid.count
     records = {wl: RayRecord(*(np.concatenate(column) for column in zip(*chunks,
                                                                         strict=True)))
                for wl, chunks in parts.items()}
-    return TracedView(image, cover["hidden"], cover["entered"], cover["through"],
-                      cover["replaced"], records)
+    hidden, entered, through, replaced = (np.ascontiguousarray(cover[..., k]) for k in range(4))
+    return TracedView(image, hidden, entered, through, replaced, records)
 
 
 def _record_rows(ids, offset: int, stride: int, count: int, through) -> np.ndarray:
