@@ -26,9 +26,9 @@ def linear_to_srgb(values):
                     1.055 * np.power(v, 1.0 / 2.4) - 0.055).astype(np.float32)
 
 
-def to_uint8(linear_rgb) -> np.ndarray:
-    """Linear RGB floats to an 8-bit sRGB image."""
-    return np.round(linear_to_srgb(linear_rgb) * 255.0).astype(np.uint8)
+def srgb_to_uint8(srgb) -> np.ndarray:
+    """sRGB-encoded floats in [0, 1] (:func:`linear_to_srgb`) to an 8-bit image."""
+    return np.round(np.asarray(srgb) * 255.0).astype(np.uint8)
 
 
 def hex_color_linear(text: str, key: str, source: str) -> np.ndarray:

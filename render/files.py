@@ -13,6 +13,7 @@ import os
 import platform
 import tempfile
 import time
+from concurrent.futures import ThreadPoolExecutor
 from importlib import metadata
 from pathlib import Path
 
@@ -100,6 +101,10 @@ def atomic_write(path: Path, write) -> None:
 
 #: zlib level of the PNGs we write: 1 is fast and lossless like every level (our choice).
 PNG_COMPRESSION = 1
+#: Every row filtered with the PNG "Up" filter (filter type 2, W3C PNG specification,
+#: sec. 9.2): on our renders as small as libpng's per-row choice and 2-3 times faster to
+#: encode (measured on the gallery sample at 1920 x 1080; our choice).
+PNG_FILTER = cv2.IMWRITE_PNG_FILTER_UP
 
 
 def png_bytes(image_uint8: np.ndarray) -> bytes:
@@ -108,16 +113,27 @@ def png_bytes(image_uint8: np.ndarray) -> bytes:
     if image.ndim == 3:  # OpenCV wants BGR or BGRA
         order = [2, 1, 0, 3][:image.shape[2]]
         image = np.ascontiguousarray(image[..., order])
-    ok, encoded = cv2.imencode(".png", image, [cv2.IMWRITE_PNG_COMPRESSION, PNG_COMPRESSION])
+    ok, encoded = cv2.imencode(".png", image, [cv2.IMWRITE_PNG_COMPRESSION, PNG_COMPRESSION,
+                                               cv2.IMWRITE_PNG_FILTER, PNG_FILTER])
     if not ok:
         raise ValueError("could not encode the picture as PNG")
     return encoded.tobytes()
 
 
-def write_png(path: Path, image_uint8: np.ndarray) -> None:
-    """Write an 8-bit image as PNG via a temporary file and a rename."""
-    data = png_bytes(image_uint8)
-    atomic_write(Path(path), lambda temp: Path(temp).write_bytes(data))
+def write_pngs(pictures: dict) -> None:
+    """Write several 8-bit images (path: image) as PNGs, each via a temporary file.
+
+    The images are encoded on one thread per processor core (OpenCV's encoder releases
+    Python's lock while it works), at most one per picture.
+    """
+    items = list(pictures.items())
+    if len(items) > 1:
+        with ThreadPoolExecutor(min(len(items), os.cpu_count() or 1)) as pool:
+            encoded = list(pool.map(png_bytes, (image for _, image in items)))
+    else:
+        encoded = [png_bytes(image) for _, image in items]
+    for (path, _), data in zip(items, encoded, strict=True):
+        atomic_write(Path(path), lambda temp, data=data: Path(temp).write_bytes(data))
 
 
 def figure_bytes(figure, fmt: str) -> bytes:

@@ -229,3 +229,38 @@ def test_skipping_the_reference_without_a_through_view_changes_no_number(tmp_pat
     traced = render_viewer(scene, viewer, views=("reference",)).metrics
     assert skipped["window_deg"] == 0.0
     assert json.dumps(skipped, sort_keys=True) == json.dumps(traced, sort_keys=True)
+
+
+@pytest.mark.parametrize("supersample, rows", [(1, None), (2, (6, 31))])
+def test_compiled_camera_directions_equal_the_reference(supersample, rows, tmp_path,
+                                                        monkeypatch):
+    # The compiled pass must give the numpy reference's directions exactly; and by the
+    # pinhole model (Pharr, Jakob and Humphreys, Physically Based Rendering, 3rd ed.,
+    # sec. 6.1) every direction is a unit vector and the horizontal field of view spans
+    # the viewer's fov_deg between the outer columns' edges.
+    import dataclasses
+    import math
+
+    from cloakview.render.frame.camera import device_direction_planes
+    from cloakview.render.scene.loader import load_scene
+    from scenes import RING, write_scene
+
+    scene = load_scene(write_scene(tmp_path, layers=RING, width=33, height=21))
+    viewer = dataclasses.replace(scene.viewers[0], eye_mm=(37.0, 1290.0, -1400.0))
+    planes = {}
+    for path in ("numpy", "compiled"):
+        monkeypatch.setenv("CLOAKVIEW_TRACER", path)
+        planes[path] = device_direction_planes(viewer, scene.placement, supersample, rows)
+    for a, b in zip(planes["numpy"], planes["compiled"], strict=True):
+        np.testing.assert_array_equal(a, b)
+    dx, dy, dz = planes["compiled"]
+    np.testing.assert_allclose(dx**2 + dy**2 + dz**2, 1.0, atol=1e-12)
+    if rows is None:
+        cols = 33
+        middle = np.array([dx[10, 16], dy[10, 16], dz[10, 16]])
+        left, right = (np.array([dx[10, c], dy[10, c], dz[10, c]]) for c in (0, cols - 1))
+        # Column centres sit (cols - 1) / cols of the way to the edges: tan scales so.
+        half = math.tan(math.radians(viewer.fov_deg) / 2) * (cols - 1) / cols
+        for side in (left, right):
+            assert math.degrees(math.acos(side @ middle)) == pytest.approx(
+                math.degrees(math.atan(half)), rel=1e-9)

@@ -19,7 +19,7 @@ from cloakview.optics.cloak import CloakDesign, LensChoice, design_cloak
 from cloakview.optics.errors import InputError, require_finite_positive
 from cloakview.optics.materials import material_by_name
 from cloakview.render import outfolder
-from cloakview.render.files import atomic_write, write_json, write_png
+from cloakview.render.files import atomic_write, write_json, write_pngs
 from cloakview.render.frame.composite import TexturePyramids
 from cloakview.render.frame.outputs import run_record, write_summary, write_viewer
 from cloakview.render.frame.overlays import caption, inset_view, view_caption
@@ -254,12 +254,12 @@ def eyes(scene: Scene | str | Path, *, viewer: str | None = None,
     if out is not None:
         with outfolder.output_folder(out, scene.sources) as top:
             folder = top / base.name
-            write_png(folder / "left.png", images[0])
-            write_png(folder / "right.png", images[1])
-            write_png(folder / "pair.png", both_eyes.pair_picture(
-                images, [r.metrics["verdict"] for r in renders]))
-            write_png(folder / "anaglyph.png", caption(result.anaglyph, [
-                "red: left eye (L), cyan: right eye (R)", result.statement]))
+            write_pngs({
+                folder / "left.png": images[0], folder / "right.png": images[1],
+                folder / "pair.png": both_eyes.pair_picture(
+                    images, [r.metrics["verdict"] for r in renders]),
+                folder / "anaglyph.png": caption(result.anaglyph, [
+                    "red: left eye (L), cyan: right eye (R)", result.statement])})
             write_json(folder / "metrics.json", {
                 "viewer": base.name, "ipd_mm": ipd_mm, "left": renders[0].metrics,
                 "right": renders[1].metrics, "window_overlap": overlap,

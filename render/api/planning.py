@@ -10,7 +10,7 @@ import numpy as np
 from cloakview.optics.errors import InputError
 from cloakview.render import outfolder
 from cloakview.render.api.motion import check_viewing_box, scheduler_from
-from cloakview.render.files import run_record, write_csv, write_figure, write_json, write_png
+from cloakview.render.files import run_record, write_csv, write_figure, write_json, write_pngs
 from cloakview.render.frame.metrics import WORKS_DEFINITION, percent
 from cloakview.render.frame.views import render_viewer
 from cloakview.render.planning import search
@@ -132,8 +132,8 @@ def choose(inventory: str | Path, *, out: str | Path, max_length_mm: float | Non
         write_csv(folder / "pareto.csv", [r for r in feasible if r["pareto"]], DESIGN_COLUMNS)
         write_figure(folder / "pareto.png", charts.pareto(rows, currency))
         if top is not None:
-            write_png(folder / "top_design.png", top.images["cloaked"])
-            write_png(folder / "top_design_vanish.png", top.images["vanish"])
+            write_pngs({folder / "top_design.png": top.images["cloaked"],
+                        folder / "top_design_vanish.png": top.images["vanish"]})
             write_json(folder / "top_design_metrics.json", top.metrics)
         run_record(folder, "choose", {"inventory": str(inventory), **summary["constraints"],
                                       "render_in": str(render_in) if render_in else None},

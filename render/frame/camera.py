@@ -18,7 +18,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from cloakview.optics.trace import Rays
+from cloakview.optics.trace import Rays, chosen_backend
 from cloakview.render.scene.model import Placement, Viewer
 
 
@@ -73,6 +73,13 @@ def _direction_planes(viewer: Viewer, supersample: int, row_range=None, basis=No
     cols, rows = viewer.width_px * supersample, viewer.height_px * supersample
     first, stop = row_range or (0, rows)
     half = math.tan(math.radians(viewer.fov_deg) / 2.0)
+    if chosen_backend() != "numpy":  # the compiled pass; the numpy below is the reference
+        from cloakview.render.frame import camera_kernel
+
+        out = np.empty((3, stop - first, cols))
+        camera_kernel.direction_planes(np.asarray(forward, float), np.asarray(right, float),
+                                       np.asarray(up, float), half, rows, cols, first, out)
+        return out[0], out[1], out[2]
     px = ((np.arange(cols) + 0.5) / cols * 2.0 - 1.0) * half
     py = (1.0 - (np.arange(first, stop) + 0.5) / rows * 2.0) * half * rows / cols
     # The basis is orthonormal, so |forward + px right + py up|^2 = 1 + px^2 + py^2.
@@ -81,25 +88,32 @@ def _direction_planes(viewer: Viewer, supersample: int, row_range=None, basis=No
                  for k in range(3))
 
 
+def device_direction_planes(viewer: Viewer, placement: Placement, supersample: int = 1,
+                            row_range=None):
+    """The x, y and z components (each rows x columns) of :func:`device_directions`."""
+    basis = tuple(placement.directions_to_device(v) for v in _basis(viewer))
+    return _direction_planes(viewer, supersample, row_range, basis)
+
+
 def device_directions(viewer: Viewer, placement: Placement, supersample: int = 1,
                       row_range=None) -> np.ndarray:
     """Pinhole unit directions (rows, columns, 3) of ``viewer``'s samples, in the device frame."""
-    basis = tuple(placement.directions_to_device(v) for v in _basis(viewer))
-    return pixel_directions(viewer, supersample, row_range, basis)
+    return np.stack(device_direction_planes(viewer, placement, supersample, row_range), axis=-1)
 
 
-def pixel_solid_angles(viewer: Viewer, placement: Placement,
-                       directions: np.ndarray) -> np.ndarray:
-    """Solid angle [sr] of each pixel of ``viewer``, from its device-frame ``directions``.
+def pixel_solid_angles(viewer: Viewer, placement: Placement, planes) -> np.ndarray:
+    """Solid angle [sr] of each pixel of ``viewer``, from its device-frame direction ``planes``.
 
-    On the image plane at unit distance a pixel is a square of side 2 tan(fov/2) / width;
-    seen from the eye it spans that area times cos^3 of its angle off the gaze (the
-    inverse square law and the obliquity of a flat image plane, e.g. Pharr, Jakob and
-    Humphreys [2], sec. 5.5).
+    ``planes`` are the x, y and z components of the pixels' directions
+    (:func:`device_direction_planes`). On the image plane at unit distance a pixel is a
+    square of side 2 tan(fov/2) / width; seen from the eye it spans that area times cos^3
+    of its angle off the gaze (the inverse square law and the obliquity of a flat image
+    plane, e.g. Pharr, Jakob and Humphreys [2], sec. 5.5).
     """
     forward = placement.directions_to_device(_basis(viewer)[0])
     side = 2.0 * math.tan(math.radians(viewer.fov_deg) / 2.0) / viewer.width_px
-    return side * side * (directions @ forward) ** 3
+    cosine = planes[0] * forward[0] + planes[1] * forward[1] + planes[2] * forward[2]
+    return side * side * cosine ** 3
 
 
 def _pupil_offsets(viewer: Viewer) -> np.ndarray:
@@ -133,13 +147,13 @@ def camera_rays(viewer: Viewer, placement: Placement, supersample: int,
     offsets = _pupil_offsets(viewer)
     eye = placement.to_device(np.asarray(viewer.eye_mm, float))
     if len(offsets) == 1:  # a pinhole: the direction planes are the rays' components
-        basis = tuple(placement.directions_to_device(v) for v in _basis(viewer))
-        planes = _direction_planes(viewer, supersample, row_range, basis)
+        planes = device_direction_planes(viewer, placement, supersample, row_range)
         rows, cols = planes[0].shape
         count = rows * cols
-        rays = Rays(np.full(count, eye[0]), np.full(count, eye[1]), np.full(count, eye[2]),
-                    *(plane.reshape(-1) for plane in planes),
-                    np.full(count, float(wavelength_nm)), np.ones(count))
+        # Values shared by every ray are read-only broadcasts, not filled arrays.
+        same = [np.broadcast_to(np.float64(value), (count,))
+                for value in (*eye, wavelength_nm, 1.0)]
+        rays = Rays(*same[:3], *(plane.reshape(-1) for plane in planes), *same[3:])
         return rays, SampleGrid(1, rows, cols, supersample)
     directions = device_directions(viewer, placement, supersample, row_range)
     rows, cols = directions.shape[:2]

@@ -122,7 +122,7 @@ def _grid_level(u, v, i, rows, cols):
         footprint = _wider(footprint, u, v, i, i + cols)
     if r > 0:
         footprint = _wider(footprint, u, v, i, i - cols)
-    return np.float32(math.log2(footprint))
+    return np.float32(0.0) if footprint <= 1.0 else np.float32(math.log2(footprint))
 
 
 @numba.njit(parallel=True, cache=True)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import hashlib
 from pathlib import Path
 
-from cloakview.render.files import run_record, write_csv, write_json, write_png
+from cloakview.render.files import run_record, write_csv, write_json, write_pngs
 
 _CSV_COLUMNS = ("viewer", "replaced_fraction", "blocked_fraction", "showing_fraction",
                 "hidden_fraction", "object_seen_ratio", "window_deg", "window_panel_mm",
@@ -25,11 +25,9 @@ def _csv_row(metrics: dict) -> dict:
 def write_viewer(out_dir: Path, render) -> list[Path]:
     """Write one viewer's images and metrics into ``out_dir/<viewer>/``."""
     folder = Path(out_dir) / render.viewer.name
-    written = []
-    for name, image in render.images.items():
-        path = folder / f"{name}.png"
-        write_png(path, image)
-        written.append(path)
+    pictures = {folder / f"{name}.png": image for name, image in render.images.items()}
+    write_pngs(pictures)
+    written = list(pictures)
     metrics = dict(render.metrics, seconds=round(render.seconds, 3))
     write_json(folder / "metrics.json", metrics)
     written.append(folder / "metrics.json")

@@ -19,7 +19,7 @@ from cloakview.optics.errors import InputError
 from cloakview.optics.materials import nearest_to_d_line
 from cloakview.optics.surfaces import Refracting
 from cloakview.optics.trace import Rays
-from cloakview.render.color import linear_to_srgb, to_uint8
+from cloakview.render.color import linear_to_srgb, srgb_to_uint8
 from cloakview.render.frame import metrics as m
 from cloakview.render.frame import overlays
 from cloakview.render.frame.camera import camera_rays
@@ -295,8 +295,8 @@ def render_viewer(scene: Scene, viewer: Viewer, pyramids: TexturePyramids | None
 class _Encoded(dict):
     """The sRGB encoding of each traced view's image, made on first use only.
 
-    The overlay pictures share it (``difference`` and ``vanish`` both use the cloaked
-    view's); a render that makes no overlay encodes nothing.
+    A view's picture and the overlay pictures share it (``difference`` and ``vanish``
+    both use the cloaked view's); a render that makes no picture encodes nothing.
     """
 
     def __init__(self, traced: dict[str, TracedView]):
@@ -316,7 +316,7 @@ PICTURE_NEEDS = {"cloaked": ("cloaked",), "naked": ("naked",), "reference": ("re
 def _picture(name: str, traced: dict[str, TracedView], srgb: dict) -> np.ndarray:
     """One view's 8-bit picture from the traced views it needs (:data:`PICTURE_NEEDS`)."""
     if name in SETUPS:
-        return to_uint8(traced[name].image)
+        return srgb_to_uint8(srgb[name])
     cloaked = traced["cloaked"]
     if name == "difference":
         return overlays.difference_image(srgb["cloaked"], srgb["reference"],

@@ -26,7 +26,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from cloakview.render.frame.camera import device_directions, pixel_solid_angles
+from cloakview.render.frame.camera import device_direction_planes, pixel_solid_angles
 from cloakview.render.scene.model import Scene, Viewer, glass_extent, opaque_radii_mm
 
 #: Eyes farther than this from the axis [mm] get advice to move, not to resize (our choice).
@@ -58,29 +58,31 @@ def window_measures(scene: Scene, viewer: Viewer, through: np.ndarray, entered: 
         centroid of the through-view, or the direction of the far lens's centre when
         there is none.
     """
-    directions = device_directions(viewer, scene.placement)
-    omega = pixel_solid_angles(viewer, scene.placement, directions)
+    dx, dy, dz = device_direction_planes(viewer, scene.placement)
+    omega = pixel_solid_angles(viewer, scene.placement, (dx, dy, dz))
     eye = scene.placement.to_device(np.asarray(viewer.eye_mm, float))
     first = scene.system.surfaces[0]
-    t = (first.z_mm - eye[2]) / directions[..., 2]
-    radius = np.hypot(eye[0] + t * directions[..., 0], eye[1] + t * directions[..., 1])
+    t = (first.z_mm - eye[2]) / dz
+    radius = np.hypot(eye[0] + t * dx, eye[1] + t * dy)
     on_first = (radius <= first.semi_aperture_mm) & (entered >= 0.5)
-    window = float(np.sum(omega * through))
+    seen = omega * through
+    window = float(np.sum(seen))
     lens = float(np.sum(omega[on_first]))
     if window > 0.0:
-        centre = np.tensordot(omega * through, directions, axes=2)
+        centre = np.array([np.sum(seen * dx), np.sum(seen * dy), np.sum(seen * dz)])
     else:
         centre = np.array([0.0, 0.0, scene.system.back_z_mm]) - eye
     centre /= np.linalg.norm(centre)
-    angle = np.degrees(np.arccos(np.clip(directions @ centre, -1.0, 1.0)))
+    covered = naked_object >= 0.5
+    angle = np.degrees(np.arccos(np.clip(dx[covered] * centre[0] + dy[covered] * centre[1]
+                                         + dz[covered] * centre[2], -1.0, 1.0)))
     half = math.sqrt(window / math.pi)
     panel_distance = (scene.housing.panel_z_mm - eye[2]) / centre[2]
-    covered = naked_object >= 0.5
     return {"window_deg": math.degrees(half),
             "window_panel_mm": 2.0 * panel_distance * math.tan(half),
             "window_share": window / lens if lens > 0.0 else None,
-            "object_inner_deg": float(angle[covered].min()) if covered.any() else None,
-            "object_outer_deg": float(angle[covered].max()) if covered.any() else None}
+            "object_inner_deg": float(angle.min()) if angle.size else None,
+            "object_outer_deg": float(angle.max()) if angle.size else None}
 
 
 def inside_window_advice(scene: Scene, viewer: Viewer, window_deg: float) -> list[str]:
