@@ -56,19 +56,13 @@ def _basis(viewer: Viewer) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return forward, right, np.array([fy * rz, fz * rx - fx * rz, -fy * rx])
 
 
-def pixel_directions(viewer: Viewer, supersample: int, row_range=None,
-                     basis=None) -> np.ndarray:
-    """Pinhole unit directions (rows, columns, 3), row 0 at the top.
+def _direction_planes(viewer: Viewer, supersample: int, row_range=None, basis=None):
+    """Pinhole unit directions as x, y and z planes (each rows x columns), row 0 at the top.
 
     ``row_range`` = (first, stop) limits the sample rows (of height x supersample);
     ``basis`` = (forward, right, up) gives the eye's axes in the wanted frame (default
     the room frame).
     """
-    return np.stack(_direction_planes(viewer, supersample, row_range, basis), axis=-1)
-
-
-def _direction_planes(viewer: Viewer, supersample: int, row_range=None, basis=None):
-    """The x, y and z components of :func:`pixel_directions`, each (rows, columns)."""
     forward, right, up = basis if basis is not None else _basis(viewer)
     cols, rows = viewer.width_px * supersample, viewer.height_px * supersample
     first, stop = row_range or (0, rows)
