@@ -123,7 +123,7 @@ def sweep_time():
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--skip-sweep", action="store_true",
-                        help="leave out the default sight-line sweep (about 15 s)")
+                        help="leave out the default sight-line sweep (about 10 s)")
     parser.add_argument("--json", action="store_true", help="print only the JSON")
     parser.add_argument("--profile", action="store_true",
                         help="after the table, profile one full-HD cloaked frame")

@@ -18,7 +18,8 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from cloakview.optics.trace import Rays, chosen_backend
+from cloakview.optics.trace import Rays
+from cloakview.render.frame.composite import reference_path
 from cloakview.render.scene.model import Placement, Viewer
 
 
@@ -67,7 +68,7 @@ def _direction_planes(viewer: Viewer, supersample: int, row_range=None, basis=No
     cols, rows = viewer.width_px * supersample, viewer.height_px * supersample
     first, stop = row_range or (0, rows)
     half = math.tan(math.radians(viewer.fov_deg) / 2.0)
-    if chosen_backend() != "numpy":  # the compiled pass; the numpy below is the reference
+    if not reference_path():  # the compiled pass; the numpy below is the reference
         from cloakview.render.frame import camera_kernel
 
         out = np.empty((3, stop - first, cols))

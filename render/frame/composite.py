@@ -66,8 +66,8 @@ class TexturePyramids:
 def reference_path() -> bool:
     """Whether the reference path runs throughout (``CLOAKVIEW_TRACER=numpy``).
 
-    That is the numpy tracer, the OpenCV sampler and numpy blending instead of the
-    compiled kernels.
+    That is the numpy tracer, numpy camera directions, the OpenCV sampler and numpy
+    blending instead of the compiled kernels.
     """
     return chosen_backend() == "numpy"
 

@@ -117,7 +117,7 @@ def _run_batch(fn, jobs):
 
 #: Most jobs sent to a pool worker at a time: few enough that the progress bar moves and
 #: the workers finish together, enough that a short job's round trip does not dominate
-#: (our choice; a sight-line point takes about 3 ms).
+#: (our choice; a sight-line point takes about 2 ms).
 BATCH_JOBS = 16
 
 
