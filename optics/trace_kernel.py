@@ -309,49 +309,73 @@ CHUNK = 16
 #: fate codes are held as 0.0/1.0 and small whole numbers in the same float64 buffer, so
 #: every lane access is one base pointer plus a constant offset: the compiler can see that
 #: no two rows overlap and vectorises the loops without run-time alias checks.
-_X, _Y, _Z, _DX, _DY, _DZ, _TP, _STOP, _FATE, _ACT, _INS, _PEND = range(12)
-_ROWS = 12
+_X, _Y, _Z, _DX, _DY, _DZ, _TP, _STOP, _FATE, _ACT, _INS, _PEND, _HIT = range(13)
+_ROWS = 13
 #: Element shapes for :func:`_element_lanes` (a constant at each call, so each call
 #: compiles to its own loop with no shape branch inside).
 _IDEAL, _SPHERE, _FLAT = 0, 1, 2
 
 
 @numba.njit(cache=True, inline="always")
-def _wall_time(x, y, z, dx, dy, dz, z_plane, radius):
-    """Branch-free :func:`_wall_hit`: the same value, computed for every lane."""
-    t_plane = (z_plane - z) / dz
-    xe = x + t_plane * dx
-    ye = y + t_plane * dy
-    a = dx * dx + dy * dy
-    b = x * dx + y * dy
-    c = x * x + y * y - radius * radius
-    root = (-b + math.sqrt(max(b * b - a * c, 0.0))) / a
-    beyond = xe * xe + ye * ye > radius * radius
-    return root if (beyond & (c < 0.0)) else (0.0 if beyond else -1.0)
+def _ray(order, k):
+    """The ray at packet position ``k``: ``order[k]``, or ``k`` itself if ``order`` is empty."""
+    return k if order.shape[0] == 0 else order[k]
+
+
+@numba.njit(cache=True, inline="always")
+def _wall_lanes(L, zt, past_end, tube_r):
+    """Stop at the tube wall the lanes inside the tube that reach its radius before ``zt``.
+
+    :func:`_wall_hit` for every lane, in two passes: the test (where the ray stands at
+    ``zt``) for all lanes, then, only if some lane failed it, the exact wall point for
+    those lanes. The square root and second division of the wall point are paid only in
+    packets that meet the wall. Lanes whose tube ends at ``zt`` (``past_end``) stop
+    looking for it.
+    """
+    hits = 0.0
+    for j in range(LANES):
+        x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
+        dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
+        look = (L[_ACT * LANES + j] > 0.5) & (L[_INS * LANES + j] > 0.5) & (
+            L[_PEND * LANES + j] > 0.5)
+        t_plane = (zt - z) / dz
+        xe = x + t_plane * dx
+        ye = y + t_plane * dy
+        wall = look & (xe * xe + ye * ye > tube_r * tube_r)
+        L[_HIT * LANES + j] = 1.0 if wall else 0.0
+        hits += 1.0 if wall else 0.0
+        L[_PEND * LANES + j] = 0.0 if (look & past_end) else L[_PEND * LANES + j]
+    if hits > 0.0:
+        for j in range(LANES):
+            if L[_HIT * LANES + j] > 0.5:
+                x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
+                dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
+                th = _wall_hit(x, y, z, dx, dy, dz, zt, tube_r)
+                L[_X * LANES + j] = x + th * dx
+                L[_Y * LANES + j] = y + th * dy
+                L[_Z * LANES + j] = z + th * dz
+                L[_FATE * LANES + j] = float(WALL)
+                L[_ACT * LANES + j] = 0.0
 
 
 @numba.njit(cache=True, inline="always")
 def _probe_lanes(L, ze, zt, past_end, tube_r, housing, cross, probe, order, first, count):
     """The tube wall up to a probe plane, then the crossing of every travelling lane."""
+    if housing:
+        _wall_lanes(L, zt, past_end, tube_r)
     for j in range(LANES):
         x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
         dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
         go = L[_ACT * LANES + j] > 0.5
-        if housing:
-            ins = L[_INS * LANES + j] > 0.5
-            pend = L[_PEND * LANES + j] > 0.5
+        if housing:  # rays beside the tube stop where they meet its outside
             stop_z = L[_STOP * LANES + j]
-            tw = _wall_time(x, y, z, dx, dy, dz, zt, tube_r)
-            wall = go & ins & pend & (tw >= 0.0)
-            outer = go & (not ins) & (stop_z <= ze)
-            th = tw if wall else (stop_z - z) / dz
-            stop = wall | outer
-            x = x + th * dx if stop else x
-            y = y + th * dy if stop else y
-            z = z + th * dz if stop else z
-            L[_FATE * LANES + j] = float(WALL) if stop else L[_FATE * LANES + j]
-            L[_PEND * LANES + j] = 0.0 if (go & ins & pend & past_end) else L[_PEND * LANES + j]
-            go = go & (not stop)
+            outer = go & (L[_INS * LANES + j] < 0.5) & (stop_z <= ze)
+            th = (stop_z - z) / dz
+            x = x + th * dx if outer else x
+            y = y + th * dy if outer else y
+            z = z + th * dz if outer else z
+            L[_FATE * LANES + j] = float(WALL) if outer else L[_FATE * LANES + j]
+            go = go & (not outer)
         t = (ze - z) / dz
         L[_X * LANES + j] = x + t * dx if go else x
         L[_Y * LANES + j] = y + t * dy if go else y
@@ -359,7 +383,7 @@ def _probe_lanes(L, ze, zt, past_end, tube_r, housing, cross, probe, order, firs
         L[_ACT * LANES + j] = 1.0 if go else 0.0
     for j in range(count):  # every packet meets every probe: all entries are written
         reached = L[_ACT * LANES + j] > 0.5
-        i = order[first + j]
+        i = _ray(order, first + j)
         cross[probe, 0, i] = L[_X * LANES + j] if reached else np.nan
         cross[probe, 1, i] = L[_Y * LANES + j] if reached else np.nan
         cross[probe, 2, i] = L[_TP * LANES + j] if reached else np.nan
@@ -375,9 +399,8 @@ def _any_inside(L):
 
 
 @numba.njit(cache=True, inline="always")
-def _element_lanes(L, ze, zt, past_end, tube_r, housing, shape, c, semi2, focal, coat, n1,
-                   n2, mounted, fr):
-    """The tube wall up to a lens surface, then the surface, for every lane of a packet.
+def _element_lanes(L, ze, shape, c, semi2, focal, coat, n1, n2, mounted, fr):
+    """A lens surface for every lane of a packet (the tube wall is :func:`_wall_lanes`).
 
     The arithmetic of :func:`trace_rays` for one element, lane by lane, with selects in
     place of its early exits; ``shape`` and ``mounted`` are constants at each call site.
@@ -391,16 +414,6 @@ def _element_lanes(L, ze, zt, past_end, tube_r, housing, shape, c, semi2, focal,
         fate = L[_FATE * LANES + j]
         go = L[_ACT * LANES + j] > 0.5
         ins = L[_INS * LANES + j] > 0.5
-        if housing:
-            pend = L[_PEND * LANES + j] > 0.5
-            tw = _wall_time(x, y, z, dx, dy, dz, zt, tube_r)
-            wall = go & ins & pend & (tw >= 0.0)
-            x = x + tw * dx if wall else x
-            y = y + tw * dy if wall else y
-            z = z + tw * dz if wall else z
-            fate = float(WALL) if wall else fate
-            L[_PEND * LANES + j] = 0.0 if (go & ins & pend & past_end) else L[_PEND * LANES + j]
-            go = go & (not wall)
         g = go & ins  # rays outside the tube pass beside the lenses
         ux, uy, uz, udx, udy, udz, utp = x, y, z, dx, dy, dz, tp
         if mounted:
@@ -491,8 +504,9 @@ def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, order, packet_first, packet_co
 
     Parameters
     ----------
-    order : int64 array (N,)
-        Ray indices in packet order (grouped by wavelength).
+    order : int64 array (N,) or (0,)
+        Ray indices in packet order (grouped by wavelength); empty when that is the rays'
+        own order.
     packet_first, packet_count, packet_w : int64 arrays (P,)
         Each packet's first position in ``order``, its ray count (1 to LANES) and its
         wavelength's column of ``n_before``/``n_after``.
@@ -512,7 +526,7 @@ def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, order, packet_first, packet_co
             count = packet_count[p]
             w = packet_w[p]
             for j in range(LANES):
-                i = order[first + (j if j < count else 0)]  # spare lanes repeat a ray
+                i = _ray(order, first + (j if j < count else 0))  # spare lanes repeat a ray
                 L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j] = x0[i], y0[i], z0[i]
                 L[_DX * LANES + j], L[_DY * LANES + j] = dx0[i], dy0[i]
                 L[_DZ * LANES + j] = dz0[i]
@@ -556,7 +570,7 @@ def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, order, packet_first, packet_co
                         _FATE * LANES + j]
                     L[_ACT * LANES + j] = 1.0 if (go & (not on_panel)) else 0.0
             for j in range(count):
-                out_entered[order[first + j]] = ((L[_INS * LANES + j] > 0.5)
+                out_entered[_ray(order, first + j)] = ((L[_INS * LANES + j] > 0.5)
                                                  and (L[_ACT * LANES + j] > 0.5)) or not has_housing
             for e in range(start, n_el):
                 ze = ez[e]
@@ -574,26 +588,22 @@ def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, order, packet_first, packet_co
                 mounted = f[0] > 0.5
                 c, semi2, fe, ce = curv[e], semi[e] * semi[e], focal[e], coat[e]
                 n1, n2 = n_before[e, w], n_after[e, w]
+                if has_housing:
+                    _wall_lanes(L, zt, past_end, tube_r)
                 if kind[e] == IDEAL:
                     if mounted:
-                        _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _IDEAL, c,
-                                       semi2, fe, ce, n1, n2, True, fr)
+                        _element_lanes(L, ze, _IDEAL, c, semi2, fe, ce, n1, n2, True, fr)
                     else:
-                        _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _IDEAL, c,
-                                       semi2, fe, ce, n1, n2, False, fr)
+                        _element_lanes(L, ze, _IDEAL, c, semi2, fe, ce, n1, n2, False, fr)
                 elif c != 0.0:
                     if mounted:
-                        _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _SPHERE, c,
-                                       semi2, fe, ce, n1, n2, True, fr)
+                        _element_lanes(L, ze, _SPHERE, c, semi2, fe, ce, n1, n2, True, fr)
                     else:
-                        _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _SPHERE, c,
-                                       semi2, fe, ce, n1, n2, False, fr)
+                        _element_lanes(L, ze, _SPHERE, c, semi2, fe, ce, n1, n2, False, fr)
                 elif mounted:
-                    _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _FLAT, c, semi2,
-                                   fe, ce, n1, n2, True, fr)
+                    _element_lanes(L, ze, _FLAT, c, semi2, fe, ce, n1, n2, True, fr)
                 else:
-                    _element_lanes(L, ze, zt, past_end, tube_r, has_housing, _FLAT, c, semi2,
-                                   fe, ce, n1, n2, False, fr)
+                    _element_lanes(L, ze, _FLAT, c, semi2, fe, ce, n1, n2, False, fr)
             for j in range(count):
                 x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
                 dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
@@ -610,7 +620,7 @@ def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, order, packet_first, packet_co
                         th = (stop_z - z) / dz
                         x, y, z = _advance(x, y, z, dx, dy, dz, th)
                         fate = WALL
-                i = order[first + j]
+                i = _ray(order, first + j)
                 out_state[0, i] = x
                 out_state[1, i] = y
                 out_state[2, i] = z
@@ -639,7 +649,7 @@ def packet_table(wl_index):
         empty = np.zeros(0, np.int64)
         return empty, empty, empty, empty
     if np.all(wl_index[1:] >= wl_index[:-1]):
-        order = np.arange(n, dtype=np.int64)
+        order = np.zeros(0, np.int64)  # already grouped: packets follow the rays' order
         sorted_w = wl_index
     else:
         order = np.argsort(wl_index, kind="stable").astype(np.int64)

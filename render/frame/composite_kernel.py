@@ -45,6 +45,18 @@ def _corner(flat, offset, height, width, tx, ty, w, acc):
 
 
 @numba.njit(cache=True, inline="always")
+def _floor(x, below, above):
+    """``math.floor`` of float32 ``x`` clamped to [below, above], as an integer.
+
+    A truncation and a select that stay in registers (``math.floor`` of a float32 is a
+    library call); the clamp keeps the conversion in range for any finite ``x``.
+    """
+    x = min(max(x, np.float32(below)), np.float32(above))
+    t = int(x)
+    return t - 1 if x < np.float32(t) else t
+
+
+@numba.njit(cache=True, inline="always")
 def _sample_one(flat, offsets, heights, widths, u, v, level):
     """The mip-mapped bilinear RGBA (4 float32) at texel (u, v), mip ``level``."""
     top = len(offsets) - 1
@@ -52,21 +64,21 @@ def _sample_one(flat, offsets, heights, widths, u, v, level):
     one = np.float32(1.0)
     zero = np.float32(0.0)
     lv = min(max(np.float32(level), zero), np.float32(top))
-    k0 = int(math.floor(lv))
+    k0 = _floor(lv, 0, top)
     acc = (zero, zero, zero, zero)
     for k in (k0, k0 + 1):
         weight = one - np.float32(abs(lv - np.float32(k)))
         if k > top or weight <= 0.0:
             continue
         # In float32, as the reference's maps are.
-        scale = np.float32(2.0 ** -k)
+        scale = np.float32(math.ldexp(1.0, -k))
         x = np.float32(np.float32(np.float32(u) + half) * scale) - half
         y = np.float32(np.float32(np.float32(v) + half) * scale) - half
-        x0 = int(math.floor(x))
-        y0 = int(math.floor(y))
+        o, h, w = offsets[k], heights[k], widths[k]
+        x0 = _floor(x, -2, w + 1)  # a texel beyond the picture every corner is off it
+        y0 = _floor(y, -2, h + 1)
         ax = np.float32(x - np.float32(x0))
         ay = np.float32(y - np.float32(y0))
-        o, h, w = offsets[k], heights[k], widths[k]
         acc = _corner(flat, o, h, w, x0, y0, weight * ((one - ax) * (one - ay)), acc)
         acc = _corner(flat, o, h, w, x0 + 1, y0, weight * (ax * (one - ay)), acc)
         acc = _corner(flat, o, h, w, x0, y0 + 1, weight * ((one - ax) * ay), acc)
@@ -104,16 +116,14 @@ def _wider(footprint, u, v, i, k):
 
 
 @numba.njit(cache=True, inline="always")
-def _grid_level(u, v, i, rows, cols):
-    """Mip level of grid sample ``i`` from how far its four neighbours land [1].
+def _grid_level(u, v, i, r, c, rows, cols):
+    """Mip level of grid sample ``i`` (row ``r``, column ``c``) from its neighbours [1].
 
     As :func:`cloakview.render.frame.composite.footprint_levels`: the largest distance in
     u or v to the next sample along a row or a column (to the previous one where there is
     no next), at least one texel, as a base-2 logarithm.
     """
     footprint = np.float32(1.0)
-    c = i % cols
-    r = (i // cols) % rows
     if c + 1 < cols:
         footprint = _wider(footprint, u, v, i, i + 1)
     if c > 0:
@@ -123,6 +133,23 @@ def _grid_level(u, v, i, rows, cols):
     if r > 0:
         footprint = _wider(footprint, u, v, i, i - cols)
     return np.float32(0.0) if footprint <= 1.0 else np.float32(math.log2(footprint))
+
+
+@numba.njit(cache=True, inline="always")
+def _lay_one(i, u, v, level, throughput, flat, offsets, heights, widths, opacity, is_hidden,
+             rgb, clear, hidden):
+    """Ray ``i``'s sample of the layer at texel (``u``, ``v``), mip ``level``, laid over."""
+    rgba = _sample_one(flat, offsets, heights, widths, u, v, level)
+    alpha = rgba[3] * opacity
+    tp = np.float32(throughput[i])
+    if math.isnan(tp):
+        tp = np.float32(0.0)
+    seen = clear[i] * tp
+    for c in range(3):
+        rgb[i, c] += seen * (rgba[c] * opacity)
+    if is_hidden:
+        hidden[i] += clear[i] * alpha
+    clear[i] *= np.float32(1.0) - alpha
 
 
 @numba.njit(parallel=True, cache=True)
@@ -147,35 +174,28 @@ def layer_over(x, y, throughput, frame, rows, cols, ids, levels, flat, offsets, 
     .. [3] T. Porter and T. Duff, "Compositing digital images", SIGGRAPH 1984, Computer
        Graphics 18(3), 253-259.
     """
-    one = np.float32(1.0)
-    on_grid = ids.shape[0] == 0
     n = x.shape[0]
     us = np.empty(n, np.float32)
     vs = np.empty(n, np.float32)
     for i in numba.prange(n):
         us[i], vs[i] = _texel(x[i], y[i], frame)
-    for i in numba.prange(n):
-        u, v = us[i], vs[i]
-        if math.isnan(u) or math.isnan(v):
-            if on_grid:
+    if ids.shape[0]:
+        for i in numba.prange(n):
+            if not (math.isnan(us[i]) or math.isnan(vs[i])):
+                _lay_one(i, us[i], vs[i], levels[ids[i]], throughput, flat, offsets, heights,
+                         widths, opacity, is_hidden, rgb, clear, hidden)
+        return
+    for g in numba.prange(n // cols):  # grid rows, so no ray needs a division for its place
+        r = g % rows
+        for c in range(cols):
+            i = g * cols + c
+            if math.isnan(us[i]) or math.isnan(vs[i]):
                 levels[i] = np.float32(0.0)
-            continue
-        if on_grid:
-            level = _grid_level(us, vs, i, rows, cols)
+                continue
+            level = _grid_level(us, vs, i, r, c, rows, cols)
             levels[i] = level
-        else:
-            level = levels[ids[i]]
-        rgba = _sample_one(flat, offsets, heights, widths, u, v, level)
-        alpha = rgba[3] * opacity
-        tp = np.float32(throughput[i])
-        if math.isnan(tp):
-            tp = np.float32(0.0)
-        seen = clear[i] * tp
-        for c in range(3):
-            rgb[i, c] += seen * (rgba[c] * opacity)
-        if is_hidden:
-            hidden[i] += clear[i] * alpha
-        clear[i] *= one - alpha
+            _lay_one(i, us[i], vs[i], level, throughput, flat, offsets, heights, widths,
+                     opacity, is_hidden, rgb, clear, hidden)
 
 
 @numba.njit(parallel=True, cache=True, error_model="numpy")

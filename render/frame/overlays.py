@@ -17,11 +17,14 @@ def difference_image(cloaked_srgb, reference_srgb, inside_hole) -> np.ndarray:
 
     Elsewhere (panel, tube, room) the cloaked view in dim grey, for orientation.
     """
-    diff = np.abs(cloaked_srgb - reference_srgb).max(axis=-1)
-    heat = cv2.applyColorMap(np.round(np.clip(diff, 0, 1) * 255).astype(np.uint8),
-                             cv2.COLORMAP_INFERNO)[..., ::-1]
-    grey = np.round(255 * (0.15 + 0.35 * cloaked_srgb.mean(axis=-1))).astype(np.uint8)
-    image = np.where(inside_hole[..., None], heat, grey[..., None])
+    d = cv2.absdiff(cloaked_srgb, reference_srgb)
+    diff = np.maximum(np.maximum(d[..., 0], d[..., 1]), d[..., 2])
+    heat = cv2.cvtColor(cv2.applyColorMap(np.round(np.clip(diff, 0, 1) * 255).astype(np.uint8),
+                                          cv2.COLORMAP_INFERNO), cv2.COLOR_BGR2RGB)
+    c = cloaked_srgb
+    grey = np.round(255 * (0.15 + 0.35 * ((c[..., 0] + c[..., 1] + c[..., 2]) / np.float32(3))))
+    image = cv2.cvtColor(grey.astype(np.uint8), cv2.COLOR_GRAY2RGB)
+    cv2.copyTo(heat, inside_hole.astype(np.uint8), image)  # the heat map inside the hole
     return with_legend(image, "in the viewing hole: black = unchanged, yellow = fully "
                         "different")
 
@@ -62,9 +65,15 @@ def vanish_image(cloaked_srgb, cloaked_object, cloaked_replaced, naked_object) -
     replaced = place & ~showing & (cloaked_replaced >= 0.5)
     blocked = place & ~showing & ~replaced
     out = base.copy()
-    for mask, colour, keep in ((replaced, REPLACED_RGB, 0.45), (blocked, BLOCKED_RGB, 0.35),
-                               (showing, SHOWING_RGB, 0.3)):
-        out[mask] = keep * out[mask] + (1.0 - keep) * np.array(colour)
+    rows, cols = np.nonzero((place | showing).any(axis=1))[0], np.nonzero(
+        (place | showing).any(axis=0))[0]
+    if rows.size:  # every mask lies in this box: blend inside it only
+        box = np.s_[rows[0]:rows[-1] + 1, cols[0]:cols[-1] + 1]
+        part = out[box]
+        for mask, colour, keep in ((replaced, REPLACED_RGB, 0.45),
+                                   (blocked, BLOCKED_RGB, 0.35), (showing, SHOWING_RGB, 0.3)):
+            inside = mask[box]
+            part[inside] = keep * part[inside] + (1.0 - keep) * np.array(colour)
     image = np.round(np.clip(out, 0, 1) * 255).astype(np.uint8)
     contours, _ = cv2.findContours(place.astype(np.uint8), cv2.RETR_EXTERNAL,
                                    cv2.CHAIN_APPROX_NONE)
