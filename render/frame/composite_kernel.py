@@ -57,32 +57,53 @@ def _floor(x, below, above):
 
 
 @numba.njit(cache=True, inline="always")
-def _sample_one(flat, offsets, heights, widths, u, v, level):
-    """The mip-mapped bilinear RGBA (4 float32) at texel (u, v), mip ``level``."""
-    top = len(offsets) - 1
+def _bilinear(flat, offset, height, width, u, v, scale, weight, acc):
+    """``acc`` plus ``weight`` times the bilinear RGBA of one pyramid level at (u, v).
+
+    (u, v) are level-0 texels; ``scale`` (2^-k, float32) takes them to level k, whose
+    texels start at ``offset`` in ``flat``.
+    """
     half = np.float32(0.5)
     one = np.float32(1.0)
+    # In float32, as the reference's maps are.
+    x = np.float32(np.float32(np.float32(u) + half) * scale) - half
+    y = np.float32(np.float32(np.float32(v) + half) * scale) - half
+    x0 = _floor(x, -2, width + 1)  # a texel beyond the picture every corner is off it
+    y0 = _floor(y, -2, height + 1)
+    ax = np.float32(x - np.float32(x0))
+    ay = np.float32(y - np.float32(y0))
+    acc = _corner(flat, offset, height, width, x0, y0, weight * ((one - ax) * (one - ay)), acc)
+    acc = _corner(flat, offset, height, width, x0 + 1, y0, weight * (ax * (one - ay)), acc)
+    acc = _corner(flat, offset, height, width, x0, y0 + 1, weight * ((one - ax) * ay), acc)
+    return _corner(flat, offset, height, width, x0 + 1, y0 + 1, weight * (ax * ay), acc)
+
+
+@numba.njit(cache=True, inline="always")
+def _sample_one(flat, offsets, heights, widths, scales, u, v, level):
+    """The mip-mapped bilinear RGBA (4 float32) at texel (u, v), mip ``level``.
+
+    The two nearest levels, the lower first, each weighted by one minus its distance to
+    ``level``; ``scales[k]`` is 2^-k. At level 0 or below only level 0 is read, with
+    weight and scale 1 written as constants (the same values, less arithmetic).
+    """
+    top = len(offsets) - 1
+    one = np.float32(1.0)
     zero = np.float32(0.0)
-    lv = min(max(np.float32(level), zero), np.float32(top))
-    k0 = _floor(lv, 0, top)
     acc = (zero, zero, zero, zero)
-    for k in (k0, k0 + 1):
-        weight = one - np.float32(abs(lv - np.float32(k)))
-        if k > top or weight <= 0.0:
-            continue
-        # In float32, as the reference's maps are.
-        scale = np.float32(math.ldexp(1.0, -k))
-        x = np.float32(np.float32(np.float32(u) + half) * scale) - half
-        y = np.float32(np.float32(np.float32(v) + half) * scale) - half
-        o, h, w = offsets[k], heights[k], widths[k]
-        x0 = _floor(x, -2, w + 1)  # a texel beyond the picture every corner is off it
-        y0 = _floor(y, -2, h + 1)
-        ax = np.float32(x - np.float32(x0))
-        ay = np.float32(y - np.float32(y0))
-        acc = _corner(flat, o, h, w, x0, y0, weight * ((one - ax) * (one - ay)), acc)
-        acc = _corner(flat, o, h, w, x0 + 1, y0, weight * (ax * (one - ay)), acc)
-        acc = _corner(flat, o, h, w, x0, y0 + 1, weight * ((one - ax) * ay), acc)
-        acc = _corner(flat, o, h, w, x0 + 1, y0 + 1, weight * (ax * ay), acc)
+    if not np.float32(level) > zero:
+        return _bilinear(flat, offsets[0], heights[0], widths[0], u, v, one, one, acc)
+    lv = min(np.float32(level), np.float32(top))
+    k0 = _floor(lv, 0, top)
+    weight = one - np.float32(abs(lv - np.float32(k0)))
+    if weight > 0.0:
+        acc = _bilinear(flat, offsets[k0], heights[k0], widths[k0], u, v, scales[k0], weight,
+                        acc)
+    k1 = k0 + 1
+    if k1 <= top:
+        weight = one - np.float32(abs(lv - np.float32(k1)))
+        if weight > 0.0:
+            acc = _bilinear(flat, offsets[k1], heights[k1], widths[k1], u, v, scales[k1],
+                            weight, acc)
     return acc
 
 
@@ -136,10 +157,10 @@ def _grid_level(u, v, i, r, c, rows, cols):
 
 
 @numba.njit(cache=True, inline="always")
-def _lay_one(i, u, v, level, throughput, flat, offsets, heights, widths, opacity, is_hidden,
-             rgb, clear, hidden):
+def _lay_one(i, u, v, level, throughput, flat, offsets, heights, widths, scales, opacity,
+             is_hidden, rgb, clear, hidden):
     """Ray ``i``'s sample of the layer at texel (``u``, ``v``), mip ``level``, laid over."""
-    rgba = _sample_one(flat, offsets, heights, widths, u, v, level)
+    rgba = _sample_one(flat, offsets, heights, widths, scales, u, v, level)
     alpha = rgba[3] * opacity
     tp = np.float32(throughput[i])
     if math.isnan(tp):
@@ -175,6 +196,9 @@ def layer_over(x, y, throughput, frame, rows, cols, ids, levels, flat, offsets, 
        Graphics 18(3), 253-259.
     """
     n = x.shape[0]
+    scales = np.empty(len(offsets), np.float32)
+    for k in range(len(offsets)):
+        scales[k] = np.float32(math.ldexp(1.0, -k))
     us = np.empty(n, np.float32)
     vs = np.empty(n, np.float32)
     for i in numba.prange(n):
@@ -183,7 +207,7 @@ def layer_over(x, y, throughput, frame, rows, cols, ids, levels, flat, offsets, 
         for i in numba.prange(n):
             if not (math.isnan(us[i]) or math.isnan(vs[i])):
                 _lay_one(i, us[i], vs[i], levels[ids[i]], throughput, flat, offsets, heights,
-                         widths, opacity, is_hidden, rgb, clear, hidden)
+                         widths, scales, opacity, is_hidden, rgb, clear, hidden)
         return
     for g in numba.prange(n // cols):  # grid rows, so no ray needs a division for its place
         r = g % rows
@@ -195,7 +219,7 @@ def layer_over(x, y, throughput, frame, rows, cols, ids, levels, flat, offsets, 
             level = _grid_level(us, vs, i, r, c, rows, cols)
             levels[i] = level
             _lay_one(i, us[i], vs[i], level, throughput, flat, offsets, heights, widths,
-                     opacity, is_hidden, rgb, clear, hidden)
+                     scales, opacity, is_hidden, rgb, clear, hidden)
 
 
 @numba.njit(parallel=True, cache=True, error_model="numpy")
