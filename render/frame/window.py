@@ -58,7 +58,10 @@ def window_measures(scene: Scene, viewer: Viewer, through: np.ndarray, entered: 
         centroid of the through-view, or the direction of the far lens's centre when
         there is none.
     """
-    dx, dy, dz = device_direction_planes(viewer, scene.placement)
+    rows, cols = _crop(through, entered, naked_object)
+    through, entered, naked_object = (a[rows, cols] for a in (through, entered, naked_object))
+    dx, dy, dz = (plane[:, cols] for plane in device_direction_planes(
+        viewer, scene.placement, row_range=(rows.start, rows.stop)))
     omega = pixel_solid_angles(viewer, scene.placement, (dx, dy, dz))
     eye = scene.placement.to_device(np.asarray(viewer.eye_mm, float))
     first = scene.system.surfaces[0]
@@ -83,6 +86,20 @@ def window_measures(scene: Scene, viewer: Viewer, through: np.ndarray, entered: 
             "window_share": window / lens if lens > 0.0 else None,
             "object_inner_deg": float(angle.min()) if angle.size else None,
             "object_outer_deg": float(angle.max()) if angle.size else None}
+
+
+def _crop(through: np.ndarray, entered: np.ndarray, naked_object: np.ndarray):
+    """Row and column slices of the box holding every pixel :func:`window_measures` counts.
+
+    Those are the pixels with rays through the device, half their rays in the viewing
+    hole, or half covered by the object without lenses; outside the box every term of
+    its sums is zero, so the measures come from the box alone (empty box: empty slices).
+    """
+    need = (through > 0.0) | (entered >= 0.5) | (naked_object >= 0.5)
+    rows, cols = np.flatnonzero(need.any(axis=1)), np.flatnonzero(need.any(axis=0))
+    if not rows.size:
+        return slice(0, 0), slice(0, 0)
+    return slice(rows[0], rows[-1] + 1), slice(cols[0], cols[-1] + 1)
 
 
 def inside_window_advice(scene: Scene, viewer: Viewer, window_deg: float) -> list[str]:
