@@ -483,7 +483,8 @@ def _trace_compiled(rays: Rays, ordered, housing: Housing | None,
     elements = (*table, state, fate, entered, cross)
     start = (rays.x, rays.y, rays.z, rays.dx, rays.dy, rays.dz, rays.throughput)
     if packets:
-        kernel.trace_packets(*start, *kernel.packet_table(wl_index), *elements)
+        kernel.trace_packets(*start, *kernel.packet_table(wl_index, len(wavelengths) == 1),
+                             *elements)
     else:
         kernel.trace_rays(*start, wl_index, *elements)
     crossings = {p.name: Crossing(cross[k, 0], cross[k, 1], cross[k, 2])

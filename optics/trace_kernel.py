@@ -4,8 +4,9 @@ One loop over rays (parallel across cores) and, inside it, one walk over the
 elements, so each ray's state stays in registers instead of streaming every
 intermediate array through memory. The numpy path in ``cloakview.optics.trace`` is the
 reference; ``tests/test_trace_kernel.py`` holds the two together (positions to
-1e-9 mm, fates exactly). This module does no I/O and imports nothing of cloakview's
-but the fate codes.
+1e-9 mm, fates exactly). The one difference of method: the kernels meet a sphere from
+the ray's own point (:func:`_sphere_step`), the numpy path from the vertex plane. This
+module does no I/O and imports nothing of cloakview's but the fate codes.
 
 References
 ----------
@@ -71,6 +72,36 @@ def _fresnel_transmittance(n1, n2, cos_i, cos_t):
     dd = n1 * cos_t
     rp = (cc - dd) / (cc + dd)
     return 1.0 - 0.5 * (rs * rs + rp * rp)
+
+
+@numba.njit(cache=True, inline="always")
+def _sphere_step(x, y, z, dx, dy, dz, ze, c, inv_c):
+    """Distance along the ray to a spherical surface, from wherever the ray stands.
+
+    The surface has its vertex at ``ze`` [mm] and curvature ``c`` [1/mm] (``inv_c`` is
+    1 / c). With p the ray's point relative to the vertex and d its unit direction, the
+    point p + s d lies on the surface c |q|^2 - 2 q_z = 0 [a] where
+    c s^2 - 2 B s + F = 0, B = d_z - c (p . d), F = c |p|^2 - 2 p_z. The root taken is
+    the one that tends to the vertex plane as c goes to 0, Welford's root [a] (he starts
+    from the vertex plane, where F = c (x^2 + y^2); the numpy path does so), written so
+    that nothing cancels [b]: F / (B + sqrt(D)) for B >= 0, else (B - sqrt(D)) / c, with
+    D = B^2 - c F. Returns (distance [mm], D); D < 0: the ray misses the sphere.
+
+    Starting from the ray's own point spares the step to the vertex plane, and its
+    division, on every spherical surface.
+
+    References
+    ----------
+    .. [a] W. T. Welford, Aberrations of Optical Systems (1986), sec. 4.3.
+    .. [b] W. H. Press, S. A. Teukolsky, W. T. Vetterling, B. P. Flannery, Numerical
+       Recipes, 3rd ed. (2007), sec. 5.6 (roots of a quadratic without cancellation).
+    """
+    pz = z - ze
+    ff = c * (x * x + y * y + pz * pz) - 2.0 * pz
+    gg = dz - c * (x * dx + y * dy + pz * dz)
+    disc = gg * gg - c * ff
+    root = math.sqrt(disc)
+    return (ff / (gg + root) if gg >= 0.0 else (gg - root) * inv_c), disc
 
 
 @numba.njit(cache=True, inline="always")
@@ -217,10 +248,22 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                 mounted = frames[e, 0] > 0.5
                 if mounted:
                     x, y, z, dx, dy, dz = _frame(x, y, z, dx, dy, dz, frames[e], True)
-                t = (ze - z) / dz
-                x += t * dx
-                y += t * dy
-                z = ze
+                c = curv[e]
+                sphere = k != IDEAL and c != 0.0
+                t = disc = 0.0
+                if sphere:
+                    t, disc = _sphere_step(x, y, z, dx, dy, dz, ze, c, 1.0 / c)
+                if not sphere or disc < 0.0:  # a plane, or a sphere missed at its vertex plane
+                    t = (ze - z) / dz
+                    x += t * dx
+                    y += t * dy
+                    z = ze
+                    if sphere:
+                        fate = MOUNT
+                        stopped = True
+                        break
+                else:
+                    x, y, z = _advance(x, y, z, dx, dy, dz, t)
                 if k == IDEAL:
                     if x * x + y * y > semi[e] * semi[e]:
                         fate = MOUNT
@@ -232,17 +275,6 @@ def trace_rays(x0, y0, z0, dx0, dy0, dz0, tp0, wl_index,
                     norm = 1.0 / math.sqrt(1.0 + u * u + v * v)
                     dx, dy, dz = u * norm, v * norm, norm
                 else:
-                    c = curv[e]
-                    if c != 0.0:
-                        ff = c * (x * x + y * y)
-                        g = dz - c * (x * dx + y * dy)
-                        disc = g * g - c * ff
-                        if disc < 0.0:
-                            fate = MOUNT
-                            stopped = True
-                            break
-                        t = ff / (g + math.sqrt(disc))
-                        x, y, z = _advance(x, y, z, dx, dy, dz, t)
                     nz = 1.0 - c * (z - ze)
                     # Outside the clear aperture, or on the far side of the sphere (not the
                     # lens's own cap; also catches a non-finite t): the ray meets the mount.
@@ -332,7 +364,7 @@ def _wall_lanes(L, zt, past_end, tube_r):
     packets that meet the wall. Lanes whose tube ends at ``zt`` (``past_end``) stop
     looking for it.
     """
-    hits = 0.0
+    hits = 0
     for j in range(LANES):
         x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
         dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
@@ -343,9 +375,9 @@ def _wall_lanes(L, zt, past_end, tube_r):
         ye = y + t_plane * dy
         wall = look & (xe * xe + ye * ye > tube_r * tube_r)
         L[_HIT * LANES + j] = 1.0 if wall else 0.0
-        hits += 1.0 if wall else 0.0
+        hits += 1 if wall else 0
         L[_PEND * LANES + j] = 0.0 if (look & past_end) else L[_PEND * LANES + j]
-    if hits > 0.0:
+    if hits > 0:
         for j in range(LANES):
             if L[_HIT * LANES + j] > 0.5:
                 x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
@@ -390,23 +422,46 @@ def _probe_lanes(L, ze, zt, past_end, tube_r, housing, cross, probe, order, firs
 
 
 @numba.njit(cache=True, inline="always")
-def _any_inside(L):
-    """Whether any lane of the packet is still travelling inside the tube."""
-    live = 0.0
+def _finish_lanes(L, tube_end_z, tube_r):
+    """The housing's last stops after the elements, for the lanes still travelling.
+
+    Rays inside the tube that reach its radius before its end stop on the wall
+    (:func:`_wall_lanes`); rays beside the tube that meet its outside stop there.
+    """
+    _wall_lanes(L, tube_end_z, True, tube_r)
     for j in range(LANES):
-        live += L[_ACT * LANES + j] * L[_INS * LANES + j]
-    return live > 0.0
+        x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
+        dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
+        stop_z = L[_STOP * LANES + j]
+        outer = (L[_ACT * LANES + j] > 0.5) & (L[_INS * LANES + j] < 0.5) & (stop_z < np.inf)
+        th = (stop_z - z) / dz
+        L[_X * LANES + j] = x + th * dx if outer else x
+        L[_Y * LANES + j] = y + th * dy if outer else y
+        L[_Z * LANES + j] = z + th * dz if outer else z
+        L[_FATE * LANES + j] = float(WALL) if outer else L[_FATE * LANES + j]
 
 
 @numba.njit(cache=True, inline="always")
-def _element_lanes(L, ze, shape, c, semi2, focal, coat, n1, n2, mounted, fr):
+def _any_inside(L):
+    """Whether any lane of the packet is still travelling inside the tube."""
+    live = 0  # integer counts here and below: a float sum would not vectorise
+    for j in range(LANES):
+        live += 1 if (L[_ACT * LANES + j] > 0.5) & (L[_INS * LANES + j] > 0.5) else 0
+    return live > 0
+
+
+@numba.njit(cache=True, inline="always")
+def _element_lanes(L, ze, shape, c, inv_c, semi2, focal, coat, n1, n2, mounted, fr):
     """A lens surface for every lane of a packet (the tube wall is :func:`_wall_lanes`).
 
     The arithmetic of :func:`trace_rays` for one element, lane by lane, with selects in
     place of its early exits; ``shape`` and ``mounted`` are constants at each call site.
+    Lanes that miss a sphere stop where they cross its vertex plane, as in
+    :func:`trace_rays`: a second pass, run only if some lane missed, moves them there.
     """
     bare = coat < 0.0
     eta = n1 / n2
+    misses = 0  # an integer count (see _any_inside)
     for j in range(LANES):
         x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
         dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
@@ -418,10 +473,11 @@ def _element_lanes(L, ze, shape, c, semi2, focal, coat, n1, n2, mounted, fr):
         ux, uy, uz, udx, udy, udz, utp = x, y, z, dx, dy, dz, tp
         if mounted:
             ux, uy, uz, udx, udy, udz = _frame(ux, uy, uz, udx, udy, udz, fr, True)
-        t = (ze - uz) / udz
-        ux = ux + t * udx
-        uy = uy + t * udy
-        uz = ze
+        if shape != _SPHERE:
+            t = (ze - uz) / udz
+            ux = ux + t * udx
+            uy = uy + t * udy
+            uz = ze
         if shape == _IDEAL:
             s = ux * ux + uy * uy > semi2
             u = udx / udz - ux / focal
@@ -434,11 +490,11 @@ def _element_lanes(L, ze, shape, c, semi2, focal, coat, n1, n2, mounted, fr):
         else:
             s = False
             if shape == _SPHERE:
-                ff = c * (ux * ux + uy * uy)
-                gg = udz - c * (ux * udx + uy * udy)
-                disc = gg * gg - c * ff
+                ts, disc = _sphere_step(ux, uy, uz, udx, udy, udz, ze, c, inv_c)
                 s = disc < 0.0
-                ts = ff / (gg + math.sqrt(disc))
+                missed = g & s
+                L[_HIT * LANES + j] = 1.0 if missed else 0.0
+                misses += 1 if missed else 0
                 ux = ux if s else ux + ts * udx
                 uy = uy if s else uy + ts * udy
                 uz = uz if s else uz + ts * udz
@@ -488,6 +544,13 @@ def _element_lanes(L, ze, shape, c, semi2, focal, coat, n1, n2, mounted, fr):
         L[_TP * LANES + j] = utp if g else tp
         L[_FATE * LANES + j] = float(code) if (g & s) else fate
         L[_ACT * LANES + j] = 0.0 if (g & s) else (1.0 if go else 0.0)
+    if misses > 0:
+        for j in range(LANES):
+            if L[_HIT * LANES + j] > 0.5:
+                t = (ze - L[_Z * LANES + j]) / L[_DZ * LANES + j]
+                L[_X * LANES + j] = L[_X * LANES + j] + t * L[_DX * LANES + j]
+                L[_Y * LANES + j] = L[_Y * LANES + j] + t * L[_DY * LANES + j]
+                L[_Z * LANES + j] = ze
 
 
 @numba.njit(cache=True, parallel=True, error_model="numpy")
@@ -587,57 +650,48 @@ def trace_packets(x0, y0, z0, dx0, dy0, dz0, tp0, order, packet_first, packet_co
                       f[11], f[12])
                 mounted = f[0] > 0.5
                 c, semi2, fe, ce = curv[e], semi[e] * semi[e], focal[e], coat[e]
+                ic = 1.0 / c if c != 0.0 else 0.0  # 1 / curvature, for _sphere_step
                 n1, n2 = n_before[e, w], n_after[e, w]
                 if has_housing:
                     _wall_lanes(L, zt, past_end, tube_r)
                 if kind[e] == IDEAL:
                     if mounted:
-                        _element_lanes(L, ze, _IDEAL, c, semi2, fe, ce, n1, n2, True, fr)
+                        _element_lanes(L, ze, _IDEAL, c, ic, semi2, fe, ce, n1, n2, True, fr)
                     else:
-                        _element_lanes(L, ze, _IDEAL, c, semi2, fe, ce, n1, n2, False, fr)
+                        _element_lanes(L, ze, _IDEAL, c, ic, semi2, fe, ce, n1, n2, False, fr)
                 elif c != 0.0:
                     if mounted:
-                        _element_lanes(L, ze, _SPHERE, c, semi2, fe, ce, n1, n2, True, fr)
+                        _element_lanes(L, ze, _SPHERE, c, ic, semi2, fe, ce, n1, n2, True, fr)
                     else:
-                        _element_lanes(L, ze, _SPHERE, c, semi2, fe, ce, n1, n2, False, fr)
+                        _element_lanes(L, ze, _SPHERE, c, ic, semi2, fe, ce, n1, n2, False, fr)
                 elif mounted:
-                    _element_lanes(L, ze, _FLAT, c, semi2, fe, ce, n1, n2, True, fr)
+                    _element_lanes(L, ze, _FLAT, c, ic, semi2, fe, ce, n1, n2, True, fr)
                 else:
-                    _element_lanes(L, ze, _FLAT, c, semi2, fe, ce, n1, n2, False, fr)
+                    _element_lanes(L, ze, _FLAT, c, ic, semi2, fe, ce, n1, n2, False, fr)
+            if has_housing:
+                _finish_lanes(L, tube_end_z, tube_r)
             for j in range(count):
-                x, y, z = L[_X * LANES + j], L[_Y * LANES + j], L[_Z * LANES + j]
-                dx, dy, dz = L[_DX * LANES + j], L[_DY * LANES + j], L[_DZ * LANES + j]
-                fate = int(L[_FATE * LANES + j])
-                if L[_ACT * LANES + j] > 0.5:
-                    ins = L[_INS * LANES + j] > 0.5
-                    if ins and L[_PEND * LANES + j] > 0.5:
-                        th = _wall_hit(x, y, z, dx, dy, dz, tube_end_z, tube_r)
-                        if th >= 0.0:
-                            x, y, z = _advance(x, y, z, dx, dy, dz, th)
-                            fate = WALL
-                    stop_z = L[_STOP * LANES + j]
-                    if fate == PASSED and not ins and stop_z < np.inf:
-                        th = (stop_z - z) / dz
-                        x, y, z = _advance(x, y, z, dx, dy, dz, th)
-                        fate = WALL
                 i = _ray(order, first + j)
-                out_state[0, i] = x
-                out_state[1, i] = y
-                out_state[2, i] = z
-                out_state[3, i] = dx
-                out_state[4, i] = dy
-                out_state[5, i] = dz
+                out_state[0, i] = L[_X * LANES + j]
+                out_state[1, i] = L[_Y * LANES + j]
+                out_state[2, i] = L[_Z * LANES + j]
+                out_state[3, i] = L[_DX * LANES + j]
+                out_state[4, i] = L[_DY * LANES + j]
+                out_state[5, i] = L[_DZ * LANES + j]
                 out_state[6, i] = L[_TP * LANES + j]
-                out_fate[i] = fate
+                out_fate[i] = np.int8(L[_FATE * LANES + j])
 
 
-def packet_table(wl_index):
+def packet_table(wl_index, one_wavelength=False):
     """Packets of at most :data:`LANES` rays sharing one wavelength.
 
     Parameters
     ----------
     wl_index : int64 array (N,)
         Each ray's wavelength column.
+    one_wavelength : bool
+        Whether all rays share one wavelength (then ``wl_index`` is not read: the packets
+        are the rays in their own order).
 
     Returns
     -------
@@ -648,6 +702,10 @@ def packet_table(wl_index):
     if n == 0:
         empty = np.zeros(0, np.int64)
         return empty, empty, empty, empty
+    if one_wavelength:
+        first = np.arange(0, n, LANES, dtype=np.int64)
+        return (np.zeros(0, np.int64), first, np.minimum(first + LANES, n) - first,
+                np.zeros(len(first), np.int64))
     if np.all(wl_index[1:] >= wl_index[:-1]):
         order = np.zeros(0, np.int64)  # already grouped: packets follow the rays' order
         sorted_w = wl_index

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 from cloakview.optics.errors import InputError
+from cloakview.optics.trace import chosen_backend
 
 
 def srgb_to_linear(values):
@@ -19,9 +20,26 @@ def srgb_to_linear(values):
     return np.where(v <= 0.04045, v / 12.92, ((v + 0.055) / 1.055) ** 2.4).astype(np.float32)
 
 
+#: Arrays of at least this many values are encoded by the compiled pass (our own choice:
+#: below it, numpy is as fast).
+COMPILED_ENCODE_VALUES = 65_536
+
+
 def linear_to_srgb(values):
-    """Encode linear light in [0, 1] to sRGB values (IEC 61966-2-1 [1])."""
-    v = np.clip(np.asarray(values, dtype=np.float32), 0.0, 1.0)
+    """Encode linear light in [0, 1] to sRGB values (IEC 61966-2-1 [1]).
+
+    Large arrays go to :func:`cloakview.render.color_kernel.encode_srgb` unless the
+    reference path runs (``CLOAKVIEW_TRACER=numpy``); the numpy below is the reference.
+    """
+    v = np.asarray(values, dtype=np.float32)
+    if v.size >= COMPILED_ENCODE_VALUES and chosen_backend() != "numpy":
+        from cloakview.render.color_kernel import encode_srgb
+
+        flat = np.ascontiguousarray(v).reshape(-1)
+        out = np.empty_like(flat)
+        encode_srgb(flat, out)
+        return out.reshape(v.shape)
+    v = np.clip(v, 0.0, 1.0)
     return np.where(v <= 0.0031308, v * 12.92,
                     1.055 * np.power(v, 1.0 / 2.4) - 0.055).astype(np.float32)
 

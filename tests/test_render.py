@@ -108,6 +108,21 @@ def test_srgb_transfer_function():
     np.testing.assert_allclose(linear_to_srgb(srgb_to_linear(values)), values, atol=2e-6)
 
 
+@pytest.mark.parametrize("tracer", ["numpy", "auto"])
+def test_srgb_encoding_of_a_frame_follows_the_standard(monkeypatch, tracer):
+    # IEC 61966-2-1 encoding, written out in float64: 12.92 v up to 0.0031308, else
+    # 1.055 v^(1/2.4) - 0.055, after clipping to [0, 1]. A frame-sized array takes the
+    # compiled pass unless the reference path is chosen; both stay within float32 rounding.
+    monkeypatch.setenv("CLOAKVIEW_TRACER", tracer)
+    values = np.linspace(-0.1, 1.1, 300_000, dtype=np.float32)
+    v = np.clip(values.astype(np.float64), 0.0, 1.0)
+    expected = np.where(v <= 0.0031308, 12.92 * v, 1.055 * v ** (1 / 2.4) - 0.055)
+    encoded = linear_to_srgb(values.reshape(3, -1)).reshape(-1)
+    assert encoded.dtype == np.float32
+    np.testing.assert_allclose(encoded, expected, rtol=0, atol=3e-7)
+    assert np.isnan(linear_to_srgb(np.full(70_000, np.nan, np.float32))).all()
+
+
 @pytest.mark.parametrize("wavelengths", [[587.56], [486.13, 587.56, 656.27],
                                          [450, 500, 550, 600, 650]])
 def test_channel_weights_keep_grey_grey(wavelengths):

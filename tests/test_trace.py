@@ -54,6 +54,25 @@ def test_single_surface_spherical_aberration(glass_n15):
     assert paraxial_focus - exact[0] == pytest.approx(third_order[0], rel=1e-3)
 
 
+@pytest.mark.parametrize("backend", ["numpy", "per-ray", "compiled"])
+@pytest.mark.parametrize("radius", [50.0, -40.0])
+@pytest.mark.parametrize("start_z", [-10.0, -600.0, -3000.0])
+def test_sphere_met_from_far_in_front(glass_n15, backend, radius, start_z):
+    # The compiled paths meet a sphere from wherever the ray stands (no step to the vertex
+    # plane first), taking the root on the vertex's side without cancellation; a concave
+    # surface seen from farther than its radius takes the other form of that root. Every
+    # path must give the closed-form axis crossing above (Jenkins and White) to 1e-9 mm,
+    # from near and far.
+    if backend not in trace_module.available_backends():
+        pytest.skip("numba is not installed")
+    heights = [1.0, 5.0, 10.0, 20.0]
+    surface = Refracting(0.0, 1 / radius, 30.0, AIR, glass_n15)
+    result = trace(_parallel_rays(heights, z0=start_z), [surface], backend=backend)
+    assert (result.fate == PASSED).all()
+    exact = [_exact_crossing_after_sphere(h, radius, 1.5) for h in heights]
+    np.testing.assert_allclose(_axis_crossing(result), exact, rtol=0, atol=1e-9)
+
+
 def _exact_plano_convex_crossing(h, radius, thickness, n, curved_first):
     """Closed form for a ray parallel to the axis at height h through a plano-convex lens.
 

@@ -131,3 +131,14 @@ def test_renders_agree_between_paths(tmp_path, monkeypatch):
         images[backend] = render_viewer(scene, scene.viewers[0], views=("cloaked",)).images
     diff = np.abs(images["numpy"]["cloaked"].astype(int) - images["compiled"]["cloaked"])
     assert diff.max() <= 1
+
+
+@pytest.mark.parametrize("n", [0, 1, 63, 64, 65, 1000])
+def test_packet_table_of_one_wavelength_is_the_general_one(n):
+    # The shortcut for rays of one wavelength must give the packets the general grouping
+    # gives the same rays.
+    wl_index = np.zeros(n, np.int64)
+    for fast, general in zip(trace_kernel.packet_table(wl_index, True),
+                             trace_kernel.packet_table(wl_index), strict=True):
+        np.testing.assert_array_equal(fast, general)
+        assert fast.dtype == general.dtype
